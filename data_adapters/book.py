@@ -1,0 +1,356 @@
+"""The book file: what the firm is exposed to and what it may trade.
+
+A book is a TOML file (read with :mod:`tomllib`) validated into pydantic models. Every problem is
+raised as :class:`~data_adapters.errors.InputError` naming the book file and the key at fault.
+Keys of array tables are written with the entry's id when it has one (``instrument
+'CRD-M1'.contract_size``) and otherwise with its 1-based position (``exposure[3].series`` is the
+third ``[[exposure]]`` table). Paths in the book are relative to the book's folder.
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from datetime import date
+from pathlib import Path
+from typing import Any, Literal
+
+from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError
+
+from data_adapters.errors import InputError, from_validation_error
+from data_adapters.units import parse_price_unit, units_in_price_unit
+
+__all__ = [
+    "Book",
+    "BookMeta",
+    "Constraints",
+    "DataSpec",
+    "EstimationSpec",
+    "Exposure",
+    "GroupLimit",
+    "Instrument",
+    "SeriesSpec",
+    "load_book",
+]
+
+Changes = Literal["relative", "log", "absolute"]
+Estimator = Literal["sample", "ledoit-wolf", "oas", "constant-correlation", "ewma"]
+Sampling = Literal["overlapping", "non-overlapping", "scaled"]
+
+
+class _Model(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=True, allow_inf_nan=False)
+
+
+class BookMeta(_Model):
+    """``[book]``: name, reporting currency, hedge horizon in trading days, as-of date."""
+
+    name: str = Field(min_length=1)
+    currency: str = Field("USD", pattern=r"^[A-Z]{3}$")
+    horizon_days: int = Field(20, ge=1)
+    as_of: date | None = None
+
+
+class DataSpec(_Model):
+    """``[data]``: where the price history is and how it is laid out."""
+
+    prices: str = Field(min_length=1)
+    format: Literal["wide", "long"] = "wide"
+    date_column: str = Field("date", min_length=1)
+    series_column: str = Field("series", min_length=1)
+    price_column: str = Field("price", min_length=1)
+    max_gap_days: int = Field(7, ge=1)
+
+
+class EstimationSpec(_Model):
+    """``[estimation]``: history window, kind of price change, covariance estimator, sampling."""
+
+    window: int = Field(500, ge=2)
+    changes: Changes = "relative"
+    estimator: Estimator = "ledoit-wolf"
+    ewma_lambda: float = Field(0.94, gt=0.0, lt=1.0)
+    sampling: Sampling = "overlapping"
+
+
+class SeriesSpec(_Model):
+    """``[series.NAME]``: the price unit of one price column, e.g. ``USD/gal``."""
+
+    unit: str
+
+
+class Exposure(_Model):
+    """``[[exposure]]``: a quantity the firm holds (> 0) or must buy (< 0) at a series' price."""
+
+    id: str = Field(min_length=1)
+    series: str
+    quantity: float
+    unit: str
+    proxy: str | None = None
+
+
+class Instrument(_Model):
+    """``[[instrument]]``: a futures contract that may be traded, with its limits and costs."""
+
+    id: str = Field(min_length=1)
+    series: str
+    contract_size: float = Field(gt=0.0)
+    unit: str
+    min_position: float | None = None
+    max_position: float | None = None
+    position_limit: float | None = Field(None, ge=0.0)
+    current: int = 0
+    adv: float | None = Field(None, ge=0.0)
+    max_participation: float = Field(0.1, gt=0.0, le=1.0)
+    execution_days: float = Field(1.0, gt=0.0)
+    margin: float = Field(0.0, ge=0.0)
+    cost_per_contract: float = Field(0.0, ge=0.0)
+    contract_month: str | None = Field(None, pattern=r"^\d{4}-(0[1-9]|1[0-2])$")
+
+    def bounds(self) -> tuple[float, float]:
+        """Position bounds in contracts, ``(-inf, inf)`` when unlimited."""
+        if self.position_limit is not None:
+            return (-float(self.position_limit), float(self.position_limit))
+        lo = -math.inf if self.min_position is None else float(self.min_position)
+        hi = math.inf if self.max_position is None else float(self.max_position)
+        return (lo, hi)
+
+
+class GroupLimit(_Model):
+    """``[[group_limit]]``: ``|sum of the group's net positions| <= limit`` (contracts)."""
+
+    id: str = Field(min_length=1)
+    instruments: list[str] = Field(min_length=1)
+    limit: float = Field(gt=0.0)
+
+
+class Constraints(_Model):
+    """``[constraints]``: margin budget (currency) and the hedge-only switch."""
+
+    margin_budget: float | None = Field(None, gt=0.0)
+    hedge_only: bool = False
+
+
+_PATTERN_WORDS = {
+    "currency": "must be a 3-letter upper-case currency code such as 'USD'",
+    "contract_month": "must be a contract month written YYYY-MM, e.g. '2027-01'",
+}
+_ID_TABLES = ("exposure", "instrument", "group_limit")
+
+_OVERRIDES = {
+    "estimator": "estimation",
+    "window": "estimation",
+    "changes": "estimation",
+    "sampling": "estimation",
+    "ewma_lambda": "estimation",
+    "horizon_days": "book",
+}
+
+
+class Book(_Model):
+    """A validated book. Build it with :func:`load_book` or :meth:`Book.from_dict`."""
+
+    book: BookMeta
+    data: DataSpec
+    estimation: EstimationSpec = EstimationSpec()
+    series: dict[str, SeriesSpec] = Field(default_factory=dict)
+    exposures: list[Exposure] = Field(default_factory=list, alias="exposure")
+    instruments: list[Instrument] = Field(default_factory=list, alias="instrument")
+    group_limits: list[GroupLimit] = Field(default_factory=list, alias="group_limit")
+    constraints: Constraints = Constraints()
+
+    _path: Path = PrivateAttr(default=Path("book.toml"))
+    _source: str = PrivateAttr(default="book.toml")
+
+    @property
+    def path(self) -> Path:
+        """The book file."""
+        return self._path
+
+    @property
+    def folder(self) -> Path:
+        """The folder relative paths in the book are resolved against."""
+        return self._path.parent
+
+    @property
+    def source(self) -> str:
+        """How the book file is named in messages."""
+        return self._source
+
+    @property
+    def prices_path(self) -> Path:
+        """The price history file, resolved against the book's folder."""
+        return self.folder / self.data.prices
+
+    def series_ids(self) -> list[str]:
+        """Series used by exposures and instruments, in order of first use."""
+        seen: dict[str, None] = {}
+        for item in [*self.exposures, *self.instruments]:
+            seen.setdefault(item.series, None)
+        return list(seen)
+
+    def instrument(self, instrument_id: str) -> Instrument:
+        """The instrument with this id (``KeyError`` if none)."""
+        for inst in self.instruments:
+            if inst.id == instrument_id:
+                return inst
+        raise KeyError(instrument_id)
+
+    @classmethod
+    def from_dict(cls, data: dict, folder: str | Path, source: str = "book.toml") -> Book:
+        """Validate a book given as a dict (the parsed TOML).
+
+        Parameters
+        ----------
+        data : dict
+            Same shape as the TOML file.
+        folder : str or Path
+            Folder that relative paths are resolved against.
+        source : str
+            Name of the book in error messages; the book's ``path`` is ``folder / source``.
+        """
+        if not isinstance(data, dict):
+            raise InputError("the book must be a table of keys", file=source)
+        try:
+            book = cls.model_validate(data)
+        except ValidationError as err:
+            raise from_validation_error(
+                err, data, source=source, root=cls, id_tables=_ID_TABLES, words=_PATTERN_WORDS
+            ) from None
+        _check(book, source)
+        src = Path(source)
+        book._path = src if src.is_absolute() else Path(folder) / src.name
+        book._source = source
+        return book
+
+    def with_overrides(self, **kw: Any) -> Book:
+        """A copy with some settings replaced, validated like the file.
+
+        Accepted keywords: ``estimator``, ``window``, ``changes``, ``sampling``, ``ewma_lambda``
+        (``[estimation]``) and ``horizon_days`` (``[book]``). ``None`` values are ignored.
+        """
+        data = self.model_dump(by_alias=True, exclude_none=True)
+        for name, value in kw.items():
+            if name not in _OVERRIDES:
+                raise InputError(
+                    f"unknown override; allowed: {', '.join(_OVERRIDES)}", key=name
+                )
+            if value is not None:
+                data[_OVERRIDES[name]][name] = value
+        return Book.from_dict(data, self.folder, f"{self._source} (with overrides)")
+
+
+def load_book(path: str | Path) -> Book:
+    """Read and validate a TOML book file.
+
+    Raises
+    ------
+    InputError
+        Missing file, TOML syntax error (with its line) or any invalid key.
+    """
+    p = Path(path)
+    source = str(path)
+    if not p.exists():
+        raise InputError("book file not found", file=source)
+    if p.is_dir():
+        raise InputError("is a folder, not a book file", file=source)
+    try:
+        with p.open("rb") as fh:
+            data = tomllib.load(fh)
+    except tomllib.TOMLDecodeError as err:
+        raise InputError(f"TOML syntax error: {err}", file=source) from None
+    except UnicodeDecodeError as err:
+        raise InputError(f"not UTF-8 text: {err.reason}", file=source) from None
+    except OSError as err:
+        raise InputError(f"cannot read: {err.strerror}", file=source) from None
+    book = Book.from_dict(data, p.parent, source)
+    book._path = p
+    return book
+
+
+# --------------------------------------------------------------------------- cross checks
+
+
+def _check_unique(items: list, table: str, source: str) -> None:
+    seen: dict[str, int] = {}
+    for i, item in enumerate(items):
+        if item.id in seen:
+            raise InputError(
+                f"duplicate id {item.id!r} (also used by {table}[{seen[item.id] + 1}])",
+                file=source,
+                key=f"{table}[{i + 1}].id",
+            )
+        seen[item.id] = i
+
+
+def _check(book: Book, source: str) -> None:
+    """Checks that span several keys; each raises InputError naming the key."""
+    currency = book.book.currency
+    units: dict[str, str] = {}
+    for name, spec in book.series.items():
+        key = f"series.{name}.unit"
+        cur, _ = parse_price_unit(spec.unit, key=key, file=source)
+        if cur != currency:
+            raise InputError(
+                f"price unit {spec.unit!r} is in {cur} but the book currency is {currency}",
+                file=source,
+                key=key,
+            )
+        units[name] = spec.unit
+    if not book.exposures:
+        raise InputError("the book has no [[exposure]] entries", file=source, key="exposure")
+    if not book.instruments:
+        raise InputError("the book has no [[instrument]] entries", file=source, key="instrument")
+    _check_unique(book.exposures, "exposure", source)
+    _check_unique(book.instruments, "instrument", source)
+    _check_unique(book.group_limits, "group_limit", source)
+    declared = ", ".join(units) or "none"
+    instrument_ids = {inst.id for inst in book.instruments}
+
+    for table, items in (("exposure", book.exposures), ("instrument", book.instruments)):
+        for item in items:
+            where = f"{table} {item.id!r}"
+            if item.series not in units:
+                raise InputError(
+                    f"series {item.series!r} is not declared; add [series.{item.series}] with its "
+                    f"price unit (declared: {declared})",
+                    file=source,
+                    key=f"{where}.series",
+                )
+            units_in_price_unit(item.unit, units[item.series], key=f"{where}.unit", file=source)
+
+    for exp in book.exposures:
+        where = f"exposure {exp.id!r}"
+        if exp.quantity == 0:
+            raise InputError("quantity must be nonzero", file=source, key=f"{where}.quantity")
+        if exp.proxy is not None and exp.proxy not in instrument_ids:
+            raise InputError(
+                f"proxy {exp.proxy!r} is not an instrument id", file=source, key=f"{where}.proxy"
+            )
+
+    for inst in book.instruments:
+        where = f"instrument {inst.id!r}"
+        has_min_max = inst.min_position is not None or inst.max_position is not None
+        if inst.position_limit is not None and has_min_max:
+            raise InputError(
+                "give either position_limit or min_position/max_position, not both",
+                file=source,
+                key=f"{where}.position_limit",
+            )
+        lo, hi = inst.bounds()
+        if lo > hi:
+            raise InputError(
+                f"min_position {inst.min_position:g} is above max_position {inst.max_position:g}",
+                file=source,
+                key=f"{where}.min_position",
+            )
+
+    for group in book.group_limits:
+        where = f"group_limit {group.id!r}"
+        seen: set[str] = set()
+        for j, inst_id in enumerate(group.instruments):
+            key = f"{where}.instruments[{j + 1}]"
+            if inst_id not in instrument_ids:
+                raise InputError(f"{inst_id!r} is not an instrument id", file=source, key=key)
+            if inst_id in seen:
+                raise InputError(f"{inst_id!r} is listed twice", file=source, key=key)
+            seen.add(inst_id)

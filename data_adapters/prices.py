@@ -1,0 +1,367 @@
+"""Price history files into an aligned, validated price panel.
+
+Layouts (``format``):
+
+``wide``
+    A date column and one price column per series.
+``long``
+    Columns date, series, price; one row per series and date.
+
+Readers are chosen by suffix: ``.csv`` (UTF-8, optional BOM), ``.parquet`` and ``.xlsx`` (needs
+the ``openpyxl`` package; first sheet, header in the first row). Rows are numbered as a person
+sees them in the file: the header is row 1, the first data row is row 2 (the same convention is
+used for Parquet, whose rows have no visible numbers).
+
+Dates are ISO 8601 text (``2024-03-15``) or real date cells; the time of day is dropped. Empty
+cells and the markers in :data:`MISSING_MARKERS` are missing values; any other text that is not a
+finite number is an error. Aligning keeps the dates on which every needed series has a price.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from importlib.util import find_spec
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from data_adapters.errors import InputError
+
+__all__ = ["MISSING_MARKERS", "PricePanel", "check_positive", "load_prices", "read_prices"]
+
+#: Cell texts read as "no price that day" (compared after stripping spaces).
+MISSING_MARKERS = frozenset({"", "NA", "N/A", "NaN", "nan", "null", "NULL", "#N/A", "-"})
+
+_SUFFIXES = (".csv", ".parquet", ".xlsx")
+_FIRST_DATA_ROW = 2  # header is row 1
+
+
+@dataclass(frozen=True)
+class PricePanel:
+    """Aligned daily prices.
+
+    Attributes
+    ----------
+    prices : pandas.DataFrame
+        Sorted, unique ``DatetimeIndex``; one float column per series id, in the order asked for;
+        every value finite.
+    source : Path
+        The file read.
+    dropped_rows : int
+        Dates dropped by alignment (some needed series had no price that day).
+    file_rows : pandas.DataFrame
+        Same shape as ``prices``: the file row each price came from (for error messages).
+    """
+
+    prices: pd.DataFrame
+    source: Path
+    dropped_rows: int
+    file_rows: pd.DataFrame = field(repr=False, compare=False, default=None)
+
+    @property
+    def first_date(self) -> pd.Timestamp:
+        """First aligned date."""
+        return self.prices.index[0]
+
+    @property
+    def last_date(self) -> pd.Timestamp:
+        """Last aligned date."""
+        return self.prices.index[-1]
+
+
+# --------------------------------------------------------------------------- readers
+
+
+def _read_table(path: Path, source: str) -> pd.DataFrame:
+    suffix = path.suffix.lower()
+    if suffix not in _SUFFIXES:
+        raise InputError(
+            f"unsupported price file type {path.suffix!r}; use one of: {', '.join(_SUFFIXES)}",
+            file=source,
+        )
+    if not path.exists():
+        raise InputError("price file not found", file=source)
+    if path.is_dir():
+        raise InputError("is a folder, not a price file", file=source)
+    try:
+        if suffix == ".csv":
+            frame = pd.read_csv(
+                path,
+                dtype=str,
+                keep_default_na=False,
+                encoding="utf-8-sig",
+                skipinitialspace=True,
+                skip_blank_lines=False,  # keep line numbers true; blank lines dropped below
+            )
+        elif suffix == ".parquet":
+            frame = pd.read_parquet(path)
+            if not isinstance(frame.index, pd.RangeIndex):  # e.g. a saved DatetimeIndex
+                frame = frame.reset_index()
+        else:
+            if find_spec("openpyxl") is None:
+                raise InputError(
+                    "reading .xlsx files needs the 'openpyxl' package, which is not installed "
+                    "(install it, or save the sheet as CSV)",
+                    file=source,
+                )
+            frame = pd.read_excel(path, sheet_name=0, engine="openpyxl")
+    except InputError:
+        raise
+    except pd.errors.EmptyDataError:
+        raise InputError("the file is empty", file=source) from None
+    except pd.errors.ParserError as err:
+        raise InputError(f"cannot parse the file: {err}", file=source) from None
+    except UnicodeDecodeError as err:
+        raise InputError(f"not UTF-8 text: {err.reason}", file=source) from None
+    except (OSError, ValueError) as err:
+        raise InputError(f"cannot read the file: {err}", file=source) from None
+    frame.columns = [str(c).strip() for c in frame.columns]
+    # The index holds the file row of each line (header = row 1), kept through filtering.
+    frame.index = pd.RangeIndex(_FIRST_DATA_ROW, _FIRST_DATA_ROW + len(frame))
+    blank = frame.apply(lambda c: c.isna() | (c.astype("string").str.strip() == "")).all(axis=1)
+    return frame.loc[~blank.to_numpy(dtype=bool)]
+
+
+def _require_columns(frame: pd.DataFrame, needed: list[str], what: str, source: str) -> None:
+    missing = [c for c in needed if c not in frame.columns]
+    if missing:
+        found = ", ".join(map(repr, frame.columns)) or "none"
+        names = ", ".join(map(repr, missing))
+        raise InputError(
+            f"missing {what} column(s) {names} (found: {found})",
+            file=source,
+            column=missing[0],
+        )
+
+
+def _parse_dates(col: pd.Series, column: str, source: str) -> pd.DatetimeIndex:
+    if pd.api.types.is_datetime64_any_dtype(col):
+        parsed = pd.to_datetime(col)
+    else:
+        text = col.astype("string").str.strip()
+        parsed = pd.to_datetime(text, errors="coerce", format="ISO8601")
+        is_date_obj = col.map(lambda v: hasattr(v, "year") and not isinstance(v, str))
+        if is_date_obj.any():  # date cells read as objects (Excel, Parquet date32)
+            parsed = parsed.where(~is_date_obj, pd.to_datetime(col.where(is_date_obj)))
+    bad = parsed.isna()
+    if bad.any():
+        i = int(np.flatnonzero(bad.to_numpy())[0])
+        raise InputError(
+            f"cannot read date {col.iloc[i]!r} (use ISO dates like 2024-03-15)",
+            file=source,
+            row=int(col.index[i]),
+            column=column,
+        )
+    index = pd.DatetimeIndex(parsed)
+    if index.tz is not None:
+        index = index.tz_localize(None)
+    return index.normalize()
+
+
+def _parse_prices(col: pd.Series, column: str, source: str) -> np.ndarray:
+    """Float prices with NaN for missing cells; text that is not a finite number is an error."""
+    if pd.api.types.is_bool_dtype(col):
+        bad = np.ones(len(col), dtype=bool)
+        values = np.full(len(col), np.nan)
+    elif pd.api.types.is_numeric_dtype(col):
+        values = col.to_numpy(dtype=float, na_value=np.nan)
+        bad = np.isinf(values)
+    else:
+        text = col.astype("string").str.strip()
+        missing = (text.isna() | text.isin(MISSING_MARKERS)).to_numpy(dtype=bool)
+        numbers = pd.to_numeric(text.where(~missing), errors="coerce")
+        values = numbers.to_numpy(dtype=float, na_value=np.nan)
+        bad = (~missing & np.isnan(values)) | np.isinf(values)
+    if bad.any():
+        i = int(np.flatnonzero(bad)[0])
+        raise InputError(
+            f"price {col.iloc[i]!r} is not a finite number",
+            file=source,
+            row=int(col.index[i]),
+            column=column,
+        )
+    return values
+
+
+def _duplicate_error(rows: np.ndarray, dates: pd.DatetimeIndex, what: str, source: str):
+    """rows: file rows of the duplicated entries (already sorted by file order)."""
+    first = pd.Timestamp(dates[0]).date()
+    shown = ", ".join(str(r) for r in rows[:5])
+    more = f" and {len(rows) - 5} more" if len(rows) > 5 else ""
+    return InputError(
+        f"duplicate date {first}{what} in rows {shown}{more}", file=source, row=int(rows[0])
+    )
+
+
+def _wide(frame, series, date_column, source):
+    _require_columns(frame, [date_column], "date", source)
+    _require_columns(frame, series, "series", source)
+    dates = _parse_dates(frame[date_column], date_column, source)
+    rows = frame.index.to_numpy()
+    dup = dates.duplicated(keep=False)
+    if dup.any():
+        first = dates[dup][0]
+        hit = rows[dates == first]
+        raise _duplicate_error(hit, dates[dates == first], "", source)
+    values = {s: _parse_prices(frame[s], s, source) for s in series}
+    prices = pd.DataFrame(values, index=dates, columns=series)
+    file_rows = pd.DataFrame({s: rows for s in series}, index=dates, columns=series)
+    return prices, file_rows
+
+
+def _long(frame, series, date_column, series_column, price_column, source):
+    _require_columns(frame, [date_column, series_column, price_column], "long-format", source)
+    names = frame[series_column].astype("string").str.strip()
+    present = set(names.dropna())
+    absent = [s for s in series if s not in present]
+    if absent:
+        raise InputError(
+            f"series {', '.join(map(repr, absent))} not found in column {series_column!r}",
+            file=source,
+            column=series_column,
+        )
+    keep = names.isin(series).to_numpy(dtype=bool)
+    sub = frame.loc[keep]
+    rows = sub.index.to_numpy()
+    dates = _parse_dates(sub[date_column], date_column, source)
+    values = _parse_prices(sub[price_column], price_column, source)
+    key = pd.MultiIndex.from_arrays([dates, names[keep].to_numpy()])
+    dup = key.duplicated(keep=False)
+    if dup.any():
+        first = key[dup][0]
+        hit = rows[(dates == first[0]) & (names[keep].to_numpy() == first[1])]
+        raise _duplicate_error(hit, pd.DatetimeIndex([first[0]]), f" for series {first[1]!r}",
+                               source)
+    long = pd.DataFrame({"date": dates, "series": names[keep].to_numpy(), "v": values, "r": rows})
+    prices = long.pivot(index="date", columns="series", values="v").reindex(columns=series)
+    file_rows = long.pivot(index="date", columns="series", values="r").reindex(columns=series)
+    prices.columns.name = None
+    file_rows.columns.name = None
+    return prices, file_rows
+
+
+def read_prices(
+    path: str | Path,
+    *,
+    format: str = "wide",
+    series: list[str],
+    date_column: str = "date",
+    series_column: str = "series",
+    price_column: str = "price",
+    max_gap_days: int = 7,
+) -> PricePanel:
+    """Read a price file and align the needed series on common dates.
+
+    Parameters
+    ----------
+    path : str or Path
+        ``.csv``, ``.parquet`` or ``.xlsx`` file.
+    format : {"wide", "long"}
+        Layout, see the module docstring.
+    series : list of str
+        Series (price columns, or values of ``series_column`` in long format) to keep, in order.
+    date_column, series_column, price_column : str
+        Column names (the last two for the long layout only).
+    max_gap_days : int
+        Most calendar days allowed between consecutive aligned dates.
+
+    Returns
+    -------
+    PricePanel
+
+    Raises
+    ------
+    InputError
+        Missing file or columns, unreadable dates or prices, duplicate dates, a gap longer than
+        ``max_gap_days``, or no date on which every series has a price.
+    """
+    source = str(path)
+    p = Path(path)
+    if format not in ("wide", "long"):
+        raise InputError(f"unknown format {format!r}; use 'wide' or 'long'", key="data.format")
+    series = list(series)
+    if not series:
+        raise InputError("no series requested", file=source)
+    frame = _read_table(p, source)
+    if format == "wide":
+        prices, file_rows = _wide(frame, series, date_column, source)
+    else:
+        prices, file_rows = _long(frame, series, date_column, series_column, price_column, source)
+
+    order = np.argsort(prices.index.to_numpy(), kind="stable")
+    prices, file_rows = prices.iloc[order], file_rows.iloc[order]
+    complete = prices.notna().all(axis=1).to_numpy()
+    dropped = int((~complete).sum())
+    if not complete.any():
+        counts = ", ".join(f"{s}: {int(n)}" for s, n in prices.notna().sum().items())
+        raise InputError(
+            f"no date has a price for every series (dates with a price: {counts})", file=source
+        )
+    prices = prices.loc[complete].astype(float)
+    file_rows = file_rows.loc[complete].astype(int)
+    _check_gaps(prices.index, file_rows, max_gap_days, source)
+    prices.index.name = "date"
+    file_rows.index.name = "date"
+    return PricePanel(prices=prices, source=p, dropped_rows=dropped, file_rows=file_rows)
+
+
+def _check_gaps(index: pd.DatetimeIndex, file_rows: pd.DataFrame, max_gap: int, source: str):
+    if len(index) < 2:
+        return
+    gaps = np.diff(index.to_numpy()).astype("timedelta64[D]").astype(int)
+    over = np.flatnonzero(gaps > max_gap)
+    if over.size:
+        i = int(over[0])
+        a, b = index[i].date(), index[i + 1].date()
+        raise InputError(
+            f"gap of {int(gaps[i])} calendar days between {a} and {b} exceeds "
+            f"max_gap_days = {max_gap} (after aligning series)",
+            file=source,
+            row=int(file_rows.iloc[i + 1].iloc[0]),
+        )
+
+
+def check_positive(
+    panel: PricePanel, columns: list[str] | None = None, *, purpose: str = "relative or log changes"
+) -> None:
+    """Raise if any price in ``columns`` is zero or negative.
+
+    Relative and log changes divide by the price, so they need positive prices.
+
+    Raises
+    ------
+    InputError
+        Naming the file, the row and the column of the first non-positive price.
+    """
+    cols = list(panel.prices.columns) if columns is None else list(columns)
+    for col in cols:
+        values = panel.prices[col].to_numpy()
+        bad = np.flatnonzero(values <= 0)
+        if bad.size:
+            i = int(bad[0])
+            row = None
+            if panel.file_rows is not None:
+                row = int(panel.file_rows[col].iloc[i])
+            raise InputError(
+                f"price must be positive for {purpose} (found {values[i]:g} on "
+                f"{panel.prices.index[i].date()})",
+                file=str(panel.source),
+                row=row,
+                column=col,
+            )
+
+
+def load_prices(book) -> PricePanel:
+    """Read the prices of a :class:`~data_adapters.book.Book` (its ``[data]`` and series)."""
+    d = book.data
+    source_path = book.prices_path
+    return read_prices(
+        source_path,
+        format=d.format,
+        series=book.series_ids(),
+        date_column=d.date_column,
+        series_column=d.series_column,
+        price_column=d.price_column,
+        max_gap_days=d.max_gap_days,
+    )
