@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 
@@ -109,27 +110,45 @@ class HedgeModel:
         return self.E @ self.prices
 
 
+@lru_cache(maxsize=1024)
+def _cached_factor(unit: str, price_unit: str) -> float:
+    return units_in_price_unit(unit, price_unit, key="")
+
+
+def _factor_of(unit: str, price_unit: str, key: str) -> float:
+    try:
+        return _cached_factor(unit, price_unit)
+    except InputError:
+        return units_in_price_unit(unit, price_unit, key=key)  # raises, naming the key
+
+
 def loadings(book: Book, series: list[str]) -> tuple[np.ndarray, np.ndarray]:
     """Exposure and contract loadings on ``series`` with units converted to price units."""
     col = {s: i for i, s in enumerate(series)}
     E = np.zeros((len(book.exposures), len(series)))
     for r, e in enumerate(book.exposures):
-        f = units_in_price_unit(e.unit, book.series[e.series].unit, key=f"exposure '{e.id}'.unit")
+        f = _factor_of(e.unit, book.series[e.series].unit, f"exposure '{e.id}'.unit")
         E[r, col[e.series]] = e.quantity * f
     C = np.zeros((len(book.instruments), len(series)))
     for r, ins in enumerate(book.instruments):
-        f = units_in_price_unit(
-            ins.unit, book.series[ins.series].unit, key=f"instrument '{ins.id}'.unit"
-        )
+        f = _factor_of(ins.unit, book.series[ins.series].unit, f"instrument '{ins.id}'.unit")
         C[r, col[ins.series]] = ins.contract_size * f
     return E, C
 
 
-def _factor(matrix: np.ndarray) -> np.ndarray:
-    """A factor ``U`` with ``UᵀU = matrix`` for a symmetric PSD matrix (eigen, clipped at 0)."""
-    w, V = np.linalg.eigh((matrix + matrix.T) / 2)
-    keep = w > w.max() * 1e-13
-    return np.sqrt(w[keep])[:, None] * V[:, keep].T
+def _compress(A: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, float]:
+    """``M, u, r`` with ``‖M n + u‖² + r = nᵀAn + 2bᵀn + 1`` for a symmetric PSD ``A``.
+
+    Eigen-directions with (numerically) zero curvature are dropped: they are combinations of
+    futures that carry no risk (e.g. two contracts on one series), and ``b`` has no component
+    along them.
+    """
+    w, V = np.linalg.eigh((A + A.T) / 2)
+    keep = w > max(w.max(), 0.0) * 1e-12
+    w, V = w[keep], V[:, keep]
+    M = np.sqrt(w)[:, None] * V.T
+    u = (V.T @ b) / np.sqrt(w)
+    return M, u, max(1.0 - float(u @ u), 0.0)
 
 
 def _bounds(book: Book, current: np.ndarray, b: np.ndarray, fractional: bool):
@@ -194,8 +213,9 @@ def build_hedge_model(
     if not math.isfinite(v0) or v0 <= 0:
         raise InputError("the book's exposures carry no price risk (unhedged variance is 0)",
                          key="exposure")
-    U = _factor(cov / v0)
-    M, u = U @ C.T, U @ e
+    scaled = cov / v0
+    CS = C @ scaled
+    M, u, offset = _compress(CS @ C.T, CS @ e)
     current = np.array([float(i.current) for i in book.instruments])
     lo, hi, sources = _bounds(book, current, M.T @ u, fractional)
     rows, h, row_names = [], [], []
@@ -215,7 +235,7 @@ def build_hedge_model(
         M=M, u=u, lo=lo, hi=hi,
         G=np.array(rows) if rows else np.zeros((0, len(idx))),
         h=np.array(h) if h else np.zeros(0),
-        margin=margin, margin_budget=budget,
+        margin=margin, margin_budget=budget, offset=offset,
         names=tuple(idx), row_names=tuple(row_names),
     )
     return HedgeModel(

@@ -6,10 +6,14 @@ one contract of each instrument onto its series, and ``n`` is the vector of futu
 contracts. With ``Σ`` the covariance of the horizon price moves (price units²) the variance is
 ``yᵀ Σ y``. Dividing by the unhedged variance ``v₀ = eᵀ Σ e`` and factoring ``Σ / v₀ = UᵀU`` gives
 
-    f(n) = ‖M n + u‖²,   M = U Cᵀ,   u = U e,   f(0) = 1,
+    f(n) = ‖M n + u‖² + r,   f(0) = 1,
 
-the hedged variance as a fraction of the unhedged one. Solvers see only ``M``, ``u`` and the limits,
-all of order one, which keeps mixed-integer solvers from stalling on dollar² magnitudes.
+the hedged variance as a fraction of the unhedged one. ``M`` has one row per independent
+direction of the futures (at most one per instrument, whatever the number of exposures): with
+``A = C Σ Cᵀ / v₀ = V W Vᵀ`` and ``b = C Σ e / v₀``, ``M = W^½ Vᵀ``, ``u = W^-½ Vᵀ b`` and
+``r = 1 − ‖u‖²`` is the share of variance no futures position can remove (pure basis risk).
+Solvers see only ``M``, ``u`` and the limits, all of order one, which keeps mixed-integer solvers
+from stalling on dollar² magnitudes.
 
 Limits: ``lo ≤ n ≤ hi`` (position limits, liquidity and hedge-only signs already intersected; may be
 ±inf), ``G n ≤ h`` (group limits, two rows per group), ``Σ_j margin_j |n_j| ≤ margin_budget``.
@@ -42,6 +46,8 @@ class HedgeQP:
         Initial margin per contract (any consistent scale) for the budget row.
     margin_budget : float or None
         Budget for ``Σ margin_j |n_j|``; ``None`` when there is no budget.
+    offset : float
+        Constant ``r`` added to ``‖M n + u‖²`` (variance share out of the futures' reach).
     names : tuple of str
         Instrument ids, for messages.
     row_names : tuple of str
@@ -56,6 +62,7 @@ class HedgeQP:
     h: np.ndarray = field(default_factory=lambda: np.zeros(0))
     margin: np.ndarray | None = None
     margin_budget: float | None = None
+    offset: float = 0.0
     names: tuple[str, ...] = ()
     row_names: tuple[str, ...] = ()
 
@@ -84,13 +91,13 @@ class HedgeQP:
 
     @property
     def c(self) -> float:
-        """Constant ``uᵀu`` (1 when normalised by the unhedged variance)."""
-        return float(self.u @ self.u)
+        """Constant ``uᵀu + offset`` (1 when normalised by the unhedged variance)."""
+        return float(self.u @ self.u) + self.offset
 
     def value(self, x: np.ndarray) -> float:
-        """Normalised hedged variance ``‖M x + u‖²`` at positions ``x``."""
+        """Normalised hedged variance ``‖M x + u‖² + offset`` at positions ``x``."""
         r = self.M @ np.asarray(x, dtype=float) + self.u
-        return float(r @ r)
+        return float(r @ r) + self.offset
 
     def violations(self, x: np.ndarray, tol: float = 1e-7) -> list[str]:
         """Names of the limits that positions ``x`` break (empty when feasible)."""

@@ -45,6 +45,7 @@ class HedgeReport:
     unhedged_std: float
     hedged_std: float | None
     relaxed_hedged_std: float | None
+    basis_floor_std: float               # lowest std any futures position reaches, no limits
     variance_reduction: float | None
     relaxed_variance_reduction: float | None
     rounding_cost_std: float | None      # hedged σ − relaxed σ, currency (≥ 0)
@@ -119,8 +120,12 @@ def build_report(model: HedgeModel, sol: HedgeSolution, notes: list[str] | None 
     notes.append(SAMPLING_NOTES[model.changes.sampling])
     if model.estimate.method == "ewma" and model.changes.sampling != "scaled":
         notes.append("EWMA λ is meant for daily data; here it weights horizon changes")
-    rel_std = (math.sqrt(max(sol.relaxed.objective, 0.0)) * s0
-               if sol.relaxed.objective is not None else None)
+    rel_obj = sol.relaxed.objective
+    if rel_obj is not None and sol.objective is not None:
+        # the relaxation's optimum is at most any feasible point's value; this removes solver
+        # round-off when the whole-contract point is itself the continuous optimum
+        rel_obj = min(rel_obj, sol.objective)
+    rel_std = math.sqrt(max(rel_obj, 0.0)) * s0 if rel_obj is not None else None
     hedged = vr = cost = None
     inst, expo, limits = [], [], []
     margin_used = None
@@ -145,8 +150,8 @@ def build_report(model: HedgeModel, sol: HedgeSolution, notes: list[str] | None 
         observations=model.estimate.n_obs, changes=model.changes.kind,
         sampling=model.changes.sampling, unhedged_std=s0, hedged_std=hedged,
         relaxed_hedged_std=rel_std, variance_reduction=vr,
-        relaxed_variance_reduction=(1.0 - sol.relaxed.objective
-                                    if sol.relaxed.objective is not None else None),
+        basis_floor_std=math.sqrt(model.qp.offset) * s0,
+        relaxed_variance_reduction=1.0 - rel_obj if rel_obj is not None else None,
         rounding_cost_std=cost, var95_unhedged=Z95 * s0, var99_unhedged=Z99 * s0,
         var95_hedged=None if hedged is None else Z95 * hedged,
         var99_hedged=None if hedged is None else Z99 * hedged,

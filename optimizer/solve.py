@@ -16,7 +16,7 @@ below, so the cost of whole contracts is always visible.
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -78,9 +78,14 @@ def solve_qp(qp: HedgeQP, method: str = "exact", *, time_limit: float = 30.0,
                              time.perf_counter() - t0)
     from .integer import solve_exact
 
-    res = solve_exact(qp, time_limit=time_limit, relaxed=relaxed)
+    # the integer search sees the reachable part only; the constant basis-risk share is added back
+    r = qp.offset
+    core = replace(qp, offset=0.0)
+    res = solve_exact(core, time_limit=time_limit,
+                      relaxed=replace(relaxed, objective=relaxed.objective - r))
     if res.status == "infeasible":
         return _infeasible(method, relaxed, t0)
-    return HedgeSolution(method, res.status, res.x, res.objective, max(res.bound, 0.0), relaxed,
+    return HedgeSolution(method, res.status, res.x, qp.value(res.x), max(res.bound + r, 0.0),
+                         relaxed,
                          time.perf_counter() - t0,
                          detail=f"{res.method}, {res.nodes} nodes, gap {res.gap:.2e}")

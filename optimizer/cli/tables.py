@@ -39,6 +39,7 @@ def summary_table(r: HedgeReport) -> Table:
     t.add_row(f"hedged P&L std over {h} d", money(r.hedged_std, cur))
     t.add_row("bound: continuous relaxation std", money(r.relaxed_hedged_std, cur))
     t.add_row("cost of whole contracts (std)", money(r.rounding_cost_std, cur))
+    t.add_row("basis-risk floor: best std with no limits", money(r.basis_floor_std, cur))
     t.add_row("variance reduction (hedged vs unhedged)", pct(r.variance_reduction))
     t.add_row("variance reduction bound (relaxation)", pct(r.relaxed_variance_reduction))
     t.add_row("VaR 95 % unhedged → hedged (loss)",
