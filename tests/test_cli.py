@@ -157,3 +157,11 @@ def test_check_command(demo_folder):
 def test_unknown_method_is_rejected(demo_folder):
     res = runner.invoke(app, ["solve", str(demo_folder / "book.toml"), "-m", "guess"])
     assert res.exit_code == 2 and "exact" in res.stderr
+
+
+def test_report_writes_markdown_with_cautions(demo_folder, tmp_path):
+    out = tmp_path / "hedge.md"
+    res = runner.invoke(app, ["report", str(demo_folder / "book.toml"), "--out", str(out)])
+    assert res.exit_code == 0, res.output
+    text = out.read_text()
+    assert "## Futures positions" in text and "## Cautions" in text and "nan" not in text.lower()

@@ -96,6 +96,29 @@ def check(book: Path = BookArg) -> None:
 
 @app.command()
 @guarded
+def report(
+    book: Path = BookArg,
+    output: Path = typer.Option(..., "--out", "-o", help="Markdown file to write."),
+    method: str = MethodOpt,
+    time_limit: float = typer.Option(30.0, help="Seconds allowed for the whole-contract search."),
+) -> None:
+    """Solve the book and write the hedge report (Markdown) for the hedge file."""
+    from data_adapters.output import write_text_atomic
+    from optimizer.api import solve_book
+    from optimizer.markdown import to_markdown
+
+    if method not in ("exact", "round", "continuous"):
+        fail(f"unknown method '{method}'; valid: exact, round, continuous")
+    rep = solve_book(book, method, time_limit=time_limit)
+    if not rep.ok:
+        fail(f"{book}: no feasible hedge ({rep.status}); no report written", EXIT_NO_HEDGE)
+    write_text_atomic(to_markdown(rep, source=str(book)), output)
+    out.print(f"hedge report written to [bold]{output}[/] (hedged std "
+              f"{rep.hedged_std:,.0f} {rep.currency} over {rep.horizon_days} days)")
+
+
+@app.command()
+@guarded
 def demo(
     folder: Path = typer.Option(Path("basiswise-demo"), "--out",
                                 help="Folder for the demo book, prices and trade list."),
