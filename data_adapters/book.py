@@ -124,10 +124,16 @@ class GroupLimit(_Model):
 
 
 class Constraints(_Model):
-    """``[constraints]``: margin budget (currency) and the hedge-only switch."""
+    """``[constraints]``: margin budget (currency), hedge-only and no-over-hedge switches.
+
+    ``no_over_hedge``: in each group that some exposure names as its ``proxy``'s group, the net
+    notional of the group's futures may not exceed the value of those exposures. Groups no
+    exposure points to are not capped (they serve as cross hedges only).
+    """
 
     margin_budget: float | None = Field(None, gt=0.0)
     hedge_only: bool = False
+    no_over_hedge: bool = False
 
 
 _PATTERN_WORDS = {

@@ -155,8 +155,14 @@ def limit_lines(model: HedgeModel, sol: HedgeSolution) -> list[LimitLine]:
     if rel.dual_rows is not None:
         for i, name in enumerate(qp.row_names):
             d = float(rel.dual_rows[i]) if i < len(rel.dual_rows) else 0.0
-            out.append(LimitLine(name, "group limit", d > DUAL_TOL,
-                                 _shadow_std(d, model, relaxed_var), "contract"))
+            if name.startswith("no over-hedge"):
+                # rows are normalised by the exposures' value: quote per 1 % of that value
+                out.append(LimitLine(name, "no over-hedge", d > DUAL_TOL,
+                                     _shadow_std(d / 100, model, relaxed_var),
+                                     "1 % of the group's exposure value"))
+            else:
+                out.append(LimitLine(name, "group limit", d > DUAL_TOL,
+                                     _shadow_std(d, model, relaxed_var), "contract"))
     if qp.margin_budget is not None and rel.dual_margin is not None:
         budget = float(model.book.constraints.margin_budget)
         # the dual is per whole budget (normalised to 1); quote it per 100,000 of currency

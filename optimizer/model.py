@@ -226,6 +226,20 @@ def build_hedge_model(
         rows += [row, -row]
         h += [float(g.limit), float(g.limit)]
         row_names += [f"group '{g.id}' long", f"group '{g.id}' short"]
+    if book.constraints.no_over_hedge:
+        value = C @ changes.last_prices
+        exp_value = E @ changes.last_prices
+        for g in book.group_limits:
+            members = set(g.instruments)
+            cap = abs(sum(v for v, e in zip(exp_value, book.exposures, strict=True)
+                          if e.proxy in members))
+            if cap == 0:
+                continue  # no exposure names this group: it is a pure cross hedge, not capped
+            row = np.zeros(len(idx))
+            row[[idx[i] for i in g.instruments]] = value[[idx[i] for i in g.instruments]] / cap
+            rows += [row, -row]
+            h += [1.0, 1.0]
+            row_names += [f"no over-hedge '{g.id}' long", f"no over-hedge '{g.id}' short"]
     margin = budget = None
     if book.constraints.margin_budget is not None:
         scale = float(book.constraints.margin_budget)
