@@ -33,7 +33,7 @@ __all__ = ["MISSING_MARKERS", "PricePanel", "check_positive", "load_prices", "re
 #: Cell texts read as "no price that day" (compared after stripping spaces).
 MISSING_MARKERS = frozenset({"", "NA", "N/A", "NaN", "nan", "null", "NULL", "#N/A", "-"})
 
-_SUFFIXES = (".csv", ".parquet", ".xlsx")
+_SUFFIXES = (".csv", ".parquet", ".xlsx", ".sqlite", ".db")
 _FIRST_DATA_ROW = 2  # header is row 1
 
 
@@ -73,7 +73,22 @@ class PricePanel:
 # --------------------------------------------------------------------------- readers
 
 
-def _read_table(path: Path, source: str) -> pd.DataFrame:
+def _read_sqlite(path: Path, table: str, source: str) -> pd.DataFrame:
+    """All rows of ``table`` in a SQLite database, as text (parsed like a CSV afterwards)."""
+    import sqlite3
+
+    uri = f"file:{path.resolve()}?mode=ro"  # read only: a price source is never written
+    with sqlite3.connect(uri, uri=True) as con:
+        names = {r[0] for r in con.execute("SELECT name FROM sqlite_master WHERE type='table'")}
+        if table not in names:
+            raise InputError(f"no table {table!r} in the database (tables: "
+                             f"{', '.join(sorted(names)) or 'none'})", file=source,
+                             key="data.table")
+        frame = pd.read_sql_query(f'SELECT * FROM "{table}"', con)
+    return frame.astype(object).where(frame.notna(), "").astype(str)
+
+
+def _read_table(path: Path, source: str, table: str = "prices") -> pd.DataFrame:
     suffix = path.suffix.lower()
     if suffix not in _SUFFIXES:
         raise InputError(
@@ -94,6 +109,8 @@ def _read_table(path: Path, source: str) -> pd.DataFrame:
                 skipinitialspace=True,
                 skip_blank_lines=False,  # keep line numbers true; blank lines dropped below
             )
+        elif suffix in (".sqlite", ".db"):
+            frame = _read_sqlite(path, table, source)
         elif suffix == ".parquet":
             frame = pd.read_parquet(path)
             if not isinstance(frame.index, pd.RangeIndex):  # e.g. a saved DatetimeIndex
@@ -250,13 +267,14 @@ def read_prices(
     series_column: str = "series",
     price_column: str = "price",
     max_gap_days: int = 7,
+    table: str = "prices",
 ) -> PricePanel:
     """Read a price file and align the needed series on common dates.
 
     Parameters
     ----------
     path : str or Path
-        ``.csv``, ``.parquet`` or ``.xlsx`` file.
+        ``.csv``, ``.parquet``, ``.xlsx`` or SQLite (``.sqlite``/``.db``) file.
     format : {"wide", "long"}
         Layout, see the module docstring.
     series : list of str
@@ -265,6 +283,8 @@ def read_prices(
         Column names (the last two for the long layout only).
     max_gap_days : int
         Most calendar days allowed between consecutive aligned dates.
+    table : str
+        Table to read from a SQLite database (same wide or long layout as a CSV).
 
     Returns
     -------
@@ -283,7 +303,7 @@ def read_prices(
     series = list(series)
     if not series:
         raise InputError("no series requested", file=source)
-    frame = _read_table(p, source)
+    frame = _read_table(p, source, table)
     if format == "wide":
         prices, file_rows = _wide(frame, series, date_column, source)
     else:
@@ -364,4 +384,5 @@ def load_prices(book) -> PricePanel:
         series_column=d.series_column,
         price_column=d.price_column,
         max_gap_days=d.max_gap_days,
+        table=d.table,
     )

@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-from importlib.util import find_spec
-
 import numpy as np
 import pandas as pd
 import pytest
@@ -152,12 +150,29 @@ def test_unsupported_suffix(tmp_path):
     assert ".csv" in str(err) and ".parquet" in str(err)
 
 
-@pytest.mark.skipif(find_spec("openpyxl") is not None, reason="openpyxl is installed")
-def test_xlsx_without_openpyxl_says_which_package(tmp_path):
+def test_xlsx_round_trip(tmp_path, adapters_prices_frame):
     path = tmp_path / "p.xlsx"
-    path.write_bytes(b"PK")
-    err = err_of(read_prices, path, series=["a"])
-    assert "openpyxl" in str(err) and str(path) in str(err)
+    adapters_prices_frame.reset_index().to_excel(path, index=False, engine="openpyxl")
+    panel = read_prices(path, series=SERIES)
+    same(panel.prices, adapters_prices_frame)
+
+
+def test_sqlite_wide_and_long_round_trip(tmp_path, adapters_prices_frame):
+    import sqlite3
+
+    path = tmp_path / "p.sqlite"
+    with sqlite3.connect(path) as con:
+        wide = adapters_prices_frame.reset_index()
+        wide["date"] = wide["date"].dt.strftime("%Y-%m-%d")
+        wide.to_sql("closes", con, index=False)
+        long = to_long(adapters_prices_frame)
+        long["date"] = long["date"].dt.strftime("%Y-%m-%d")
+        long.to_sql("ticks", con, index=False)
+    same(read_prices(path, series=SERIES, table="closes").prices, adapters_prices_frame)
+    same(read_prices(path, series=SERIES, table="ticks", format="long").prices,
+         adapters_prices_frame)
+    err = err_of(read_prices, path, series=SERIES, table="nope")
+    assert "nope" in str(err) and "closes" in str(err) and err.key == "data.table"
 
 
 def test_missing_series_columns_listed(tmp_path, adapters_prices_frame):
