@@ -21,7 +21,7 @@ Finance 34(1).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import lru_cache
 
 import numpy as np
@@ -216,44 +216,61 @@ def build_hedge_model(
     scaled = cov / v0
     CS = C @ scaled
     M, u, offset = _compress(CS @ C.T, CS @ e)
-    current = np.array([float(i.current) for i in book.instruments])
-    lo, hi, sources = _bounds(book, current, M.T @ u, fractional)
-    rows, h, row_names = [], [], []
+    n = len(book.instruments)
+    free = HedgeQP(M=M, u=u, lo=np.full(n, -np.inf), hi=np.full(n, np.inf), offset=offset,
+                   names=tuple(i.id for i in book.instruments))
+    base = HedgeModel(
+        book=book, series=series, prices=np.asarray(changes.last_prices, dtype=float), cov=cov,
+        estimate=estimate, changes=changes, E=E, C=C, current=np.zeros(n), variance0=v0,
+        qp=free, sources=LimitSources(("none",) * n, ("none",) * n),
+    )
+    return with_limits(base, book, fractional=fractional)
+
+
+def _limit_rows(book: Book, E: np.ndarray, C: np.ndarray, prices: np.ndarray):
+    """Rows ``G n ≤ h`` of the group limits and, if asked, the no-over-hedge caps."""
     idx = {ins.id: j for j, ins in enumerate(book.instruments)}
+    rows, h, names = [], [], []
     for g in book.group_limits:
         row = np.zeros(len(idx))
         row[[idx[i] for i in g.instruments]] = 1.0
         rows += [row, -row]
         h += [float(g.limit), float(g.limit)]
-        row_names += [f"group '{g.id}' long", f"group '{g.id}' short"]
+        names += [f"group '{g.id}' long", f"group '{g.id}' short"]
     if book.constraints.no_over_hedge:
-        value = C @ changes.last_prices
-        exp_value = E @ changes.last_prices
+        value, exp_value = C @ prices, E @ prices
         for g in book.group_limits:
             members = set(g.instruments)
             cap = abs(sum(v for v, e in zip(exp_value, book.exposures, strict=True)
                           if e.proxy in members))
             if cap == 0:
                 continue  # no exposure names this group: it is a pure cross hedge, not capped
+            cols = [idx[i] for i in g.instruments]
             row = np.zeros(len(idx))
-            row[[idx[i] for i in g.instruments]] = value[[idx[i] for i in g.instruments]] / cap
+            row[cols] = value[cols] / cap
             rows += [row, -row]
             h += [1.0, 1.0]
-            row_names += [f"no over-hedge '{g.id}' long", f"no over-hedge '{g.id}' short"]
+            names += [f"no over-hedge '{g.id}' long", f"no over-hedge '{g.id}' short"]
+    G = np.array(rows) if rows else np.zeros((0, len(idx)))
+    return G, np.array(h) if h else np.zeros(0), tuple(names)
+
+
+def with_limits(model: HedgeModel, book: Book, *, fractional: bool = False) -> HedgeModel:
+    """``model`` with the limits and current positions of ``book``.
+
+    ``book`` must hold the same instruments and exposures in the same order as ``model.book``
+    (scenarios that only change limits, margins, liquidity or positions); loadings and the
+    covariance factor are reused. Raises InputError naming an instrument whose limits conflict.
+    """
+    qp = model.qp
+    current = np.array([float(i.current) for i in book.instruments])
+    lo, hi, sources = _bounds(book, current, qp.b, fractional)
+    G, h, row_names = _limit_rows(book, model.E, model.C, model.prices)
     margin = budget = None
     if book.constraints.margin_budget is not None:
-        scale = float(book.constraints.margin_budget)
-        margin = np.array([float(i.margin) for i in book.instruments]) / scale
+        margin = (np.array([float(i.margin) for i in book.instruments])
+                  / float(book.constraints.margin_budget))
         budget = 1.0
-    qp = HedgeQP(
-        M=M, u=u, lo=lo, hi=hi,
-        G=np.array(rows) if rows else np.zeros((0, len(idx))),
-        h=np.array(h) if h else np.zeros(0),
-        margin=margin, margin_budget=budget, offset=offset,
-        names=tuple(idx), row_names=tuple(row_names),
-    )
-    return HedgeModel(
-        book=book, series=series, prices=np.asarray(changes.last_prices, dtype=float), cov=cov,
-        estimate=estimate, changes=changes, E=E, C=C, current=current, variance0=v0, qp=qp,
-        sources=sources,
-    )
+    qp = replace(qp, lo=lo, hi=hi, G=G, h=h, margin=margin, margin_budget=budget,
+                 names=tuple(i.id for i in book.instruments), row_names=row_names)
+    return replace(model, book=book, qp=qp, sources=sources, current=current)
