@@ -14,6 +14,7 @@ from data_adapters.book import Book, load_book
 from data_adapters.prices import PricePanel, check_positive, load_prices
 
 from .changes import horizon_changes
+from .conflicts import limit_conflicts
 from .covariance import estimate_covariance
 from .model import HedgeModel, build_hedge_model
 from .report import HedgeReport, build_report
@@ -67,6 +68,9 @@ def solve_model(model: HedgeModel, method: str = "exact", *, time_limit: float =
                 notes: list[str] | None = None) -> HedgeReport:
     """Solve a built model and report."""
     sol = solve_qp(model.qp, method, time_limit=time_limit)
+    notes = list(notes or [])
+    if not sol.ok:
+        notes += [f"conflict: {c}" for c in limit_conflicts(model)]
     return build_report(model, sol, notes)
 
 

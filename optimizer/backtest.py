@@ -49,6 +49,7 @@ from .cautions import CAUTIONS
 from .changes import dollar_covariance, horizon_changes
 from .covariance import ESTIMATORS, estimate_covariance
 from .effectiveness import EVIDENCE_NOTE, Effectiveness, effectiveness_by_group
+from .jsonsafe import finite
 from .model import build_hedge_model, loadings
 from .qp import HedgeQP
 from .solve import solve_qp
@@ -181,7 +182,7 @@ class BacktestResult:
     def to_dict(self) -> dict:
         """JSON-ready summary: settings, ranked metrics, effectiveness of the best run, cautions."""
         best = self.best()
-        return _finite({
+        return finite({
             "book": self.book.book.name, "currency": self.currency,
             "horizon_days": self.horizon_days, "window": self.window, "step": self.step,
             "method": self.method, "rebalances": len(self.dates),
@@ -200,19 +201,6 @@ def _pooled(run: Run) -> float:
     v0 = run.predicted_var0
     total = float(v0.sum())
     return float(1.0 - ((1.0 - run.predicted_vr) * v0).sum() / total) if total > 0 else 0.0
-
-
-def _finite(obj):
-    """Replace non-finite floats by ``None`` so JSON never carries NaN."""
-    if isinstance(obj, dict):
-        return {k: _finite(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_finite(v) for v in obj]
-    if isinstance(obj, (float, np.floating)):
-        return float(obj) if math.isfinite(obj) else None
-    if isinstance(obj, np.integer):
-        return int(obj)
-    return obj
 
 
 def rebalance_rows(n_rows: int, window: int, horizon: int, step: int) -> np.ndarray:

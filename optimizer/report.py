@@ -25,6 +25,7 @@ from .diagnostics import (
     instrument_lines,
     limit_lines,
 )
+from .jsonsafe import finite
 from .model import HedgeModel
 from .solve import HedgeSolution
 
@@ -74,7 +75,7 @@ class HedgeReport:
             {"id": i.id, **{k: v for k, v in asdict(i).items() if k != "id"}}
             for i in self.instruments
         ]
-        return _finite(d)
+        return finite(d)
 
     def trade_list(self) -> pd.DataFrame:
         """The execution desk's list: one row per instrument with a non-zero trade."""
@@ -97,18 +98,6 @@ class HedgeReport:
             "instrument", "series", "contract_month", "side", "contracts", "current", "target",
             "reference_price", f"notional_{self.currency}", f"initial_margin_{self.currency}",
             "adv_share", "days_to_execute"])
-
-
-def _finite(obj):
-    if isinstance(obj, dict):
-        return {k: _finite(v) for k, v in obj.items()}
-    if isinstance(obj, list | tuple):
-        return [_finite(v) for v in obj]
-    if isinstance(obj, float | np.floating):
-        return float(obj) if math.isfinite(obj) else None
-    if isinstance(obj, np.integer):
-        return int(obj)
-    return obj
 
 
 def build_report(model: HedgeModel, sol: HedgeSolution, notes: list[str] | None = None

@@ -39,15 +39,16 @@ from data_adapters.errors import InputError
 from .api import prepare
 from .cautions import CAUTIONS
 from .changes import horizon_changes
+from .conflicts import limit_conflicts
 from .covariance import estimate_covariance
+from .jsonsafe import finite
 from .model import HedgeModel, build_hedge_model, with_limits
-from .report import _finite, build_report
+from .report import build_report
 from .scenarios import Scenario, ScenarioSet, apply_scenario
 from .solve import METHODS, solve_qp
 from .stress import historical_moves, shock_vector, stress_pnl, worst_window
 
-__all__ = ["ScenarioResult", "SweepResult", "SweepRunner", "limit_conflicts", "rebind_limits",
-           "run_sweep"]
+__all__ = ["ScenarioResult", "SweepResult", "SweepRunner", "run_sweep"]
 
 Progress = Callable[[int, int], None]
 
@@ -77,7 +78,7 @@ class ScenarioResult:
 
     def to_dict(self) -> dict:
         """JSON-ready (finite numbers or ``None``)."""
-        return _finite(asdict(self))
+        return finite(asdict(self))
 
 
 @dataclass(frozen=True)
@@ -95,7 +96,7 @@ class SweepResult:
     def to_dict(self) -> dict:
         from .frontier import frontier_lines
 
-        return _finite({
+        return finite({
             "book": self.book, "currency": self.currency, "horizon_days": self.horizon_days,
             "method": self.method, "mode": self.mode, "seconds": self.seconds,
             "scenarios": [r.to_dict() for r in self.results],
@@ -120,49 +121,11 @@ class SweepResult:
             row["binding"] = "; ".join(f"{b['limit']} ({b['shadow']:.2f} per {b['unit']})"
                                        for b in r.binding)
             row["conflicts"] = "; ".join(r.conflicts)
-            rows.append(_finite(row))
+            rows.append(finite(row))
         return pd.DataFrame(rows)
 
 
 # --------------------------------------------------------------------------- limits
-
-
-def rebind_limits(base: HedgeModel, book: Book, fractional: bool) -> HedgeModel:
-    """``base`` with the limits of ``book``: see :func:`optimizer.model.with_limits`."""
-    return with_limits(base, book, fractional=fractional)
-
-
-def limit_conflicts(model: HedgeModel, tol: float = 1e-9) -> list[str]:
-    """Limits that cannot hold together, found from each instrument's bounds alone.
-
-    A group ``|Σ n_j| ≤ L`` conflicts when ``Σ lo_j > L`` or ``Σ hi_j < −L``; the margin budget
-    conflicts when ``Σ margin_j · dist(0, [lo_j, hi_j]) > B``. Empty when no such conflict.
-    """
-    qp, book, src = model.qp, model.book, model.sources
-    idx = {ins.id: j for j, ins in enumerate(book.instruments)}
-    out = []
-    for g in book.group_limits:
-        js = [idx[i] for i in g.instruments]
-        for side, vals, names, bad in (
-            ("minimum", qp.lo, src.lo, float(np.sum(qp.lo[js])) > g.limit + tol),
-            ("maximum", qp.hi, src.hi, float(np.sum(qp.hi[js])) < -g.limit - tol),
-        ):
-            if bad:
-                parts = ", ".join(f"{book.instruments[j].id} {side} {vals[j]:g} ({names[j]})"
-                                  for j in js if abs(vals[j]) > tol)
-                out.append(f"group '{g.id}' limit {g.limit:g}: its members' {side} positions "
-                           f"sum to {float(np.sum(vals[js])):g} contracts ({parts})")
-    budget = book.constraints.margin_budget
-    if budget is not None:
-        need = np.where(qp.lo > 0, qp.lo, np.where(qp.hi < 0, -qp.hi, 0.0))
-        m = np.array([float(i.margin) for i in book.instruments])
-        total = float(m @ need)
-        if total > budget * (1 + 1e-9):
-            parts = ", ".join(f"{book.instruments[j].id} {need[j]:g} × {m[j]:,.0f}"
-                              for j in np.flatnonzero(need * m > 0))
-            out.append(f"margin budget {budget:,.0f}: the minimum positions need {total:,.0f} "
-                       f"of initial margin ({parts})")
-    return out
 
 
 # --------------------------------------------------------------------------- the runner
@@ -266,7 +229,7 @@ class SweepRunner:
                       unhedged_std=base.unhedged_std,
                       margin_budget=book.constraints.margin_budget)
         try:
-            model = rebind_limits(base, book, self.fractional)
+            model = with_limits(base, book, fractional=self.fractional)
             conflicts = limit_conflicts(model)
         except InputError as exc:
             model, conflicts = None, [f"{exc.key}: {exc.message}" if exc.key else exc.message]

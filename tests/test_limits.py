@@ -65,3 +65,27 @@ def test_conflicting_limits_name_the_instrument():
     with pytest.raises(InputError) as e:
         model_of(prepare(book))
     assert ins["id"] in str(e.value) and "liquidity" in str(e.value)
+
+
+def test_infeasible_book_names_the_conflict_and_writes_nothing(tmp_path):
+    import shutil
+
+    from typer.testing import CliRunner
+
+    from optimizer.cli.app import app
+
+    src = demo_book_path().parent
+    for name in ("book.toml", "prices.csv"):
+        shutil.copyfile(src / name, tmp_path / name)
+    book_path = tmp_path / "book.toml"
+    text = book_path.read_text()
+    start = text.index('id = "NATGAS-F1"')
+    line = text.index("position_limit", start)
+    end = text.index("\n", line)
+    # the front gas month must be long 200 or more; even with the other gas months short at
+    # their limits the gas group (at most 80 net) cannot hold
+    book_path.write_text(text[:line] + "min_position = 200\nmax_position = 300" + text[end:])
+    res = CliRunner().invoke(app, ["solve", str(book_path), "--trades", str(tmp_path / "t.csv")])
+    assert res.exit_code == 3, res.output
+    assert not (tmp_path / "t.csv").exists()
+    assert "natgas-all-months" in res.output and "conflict" in res.output

@@ -16,7 +16,7 @@ from .common import EXIT_NO_HEDGE, fail, guarded, out
 app = typer.Typer(add_completion=False, no_args_is_help=True,
                   help="Joint minimum-variance cross hedges in whole futures contracts.")
 
-BookArg = typer.Argument(..., help="Book file (TOML).", show_default=False)
+BookArg = typer.Argument(..., help="Book file (TOML).", show_default=False, metavar="BOOK")
 MethodOpt = typer.Option("exact", "--method", "-m",
                          help="exact (whole contracts, proven) | round | continuous")
 
