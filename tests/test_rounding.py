@@ -1,0 +1,61 @@
+"""Naive rounding and the repaired greedy rounding."""
+
+from __future__ import annotations
+
+import itertools
+
+import numpy as np
+
+from optimizer.formulation import solve_relaxed
+from optimizer.qp import HedgeQP
+from optimizer.rounding import best_rounded, integer_box, naive_round
+
+
+def _book(rng, n=4):
+    M = rng.normal(size=(n + 2, 1)) + 0.5 * rng.normal(size=(n + 2, n))
+    u = rng.normal(size=n + 2)
+    u /= np.linalg.norm(u)
+    lim = rng.integers(1, 4, size=n).astype(float)
+    row = np.ones(n)
+    return HedgeQP(M=M, u=u, lo=-lim, hi=lim, G=np.vstack([row, -row]), h=np.array([1.0, 1.0]),
+                   margin=np.ones(n), margin_budget=3.0)
+
+
+def test_naive_round_is_nearest_integer_clipped_to_the_integer_box():
+    qp = HedgeQP(M=np.eye(3), u=np.zeros(3), lo=np.array([-2.5, 0.0, -np.inf]),
+                 hi=np.array([2.0, 4.2, np.inf]))
+    lo, hi = integer_box(qp)
+    np.testing.assert_array_equal(lo, [-2.0, 0.0, -np.inf])
+    np.testing.assert_array_equal(hi, [2.0, 4.0, np.inf])
+    # common practice, no source: round half to even (numpy), then clip into the box
+    np.testing.assert_array_equal(naive_round(qp, np.array([-3.7, 4.6, 2.5])), [-2.0, 4.0, 2.0])
+
+
+def test_best_rounded_is_feasible_and_no_worse_than_feasible_naive_rounding():
+    rng = np.random.default_rng(5)
+    found = 0
+    for _ in range(40):
+        qp = _book(rng)
+        rel = solve_relaxed(qp)
+        x = best_rounded(qp, rel.x)
+        if x is None:
+            continue
+        found += 1
+        assert qp.is_feasible(x)
+        assert np.array_equal(x, np.round(x))
+        xr = naive_round(qp, rel.x)
+        if qp.is_feasible(xr):
+            assert qp.value(x) <= qp.value(xr) + 1e-12
+        # reference: exhaustive enumeration, exact by construction — rounding is never below
+        # the integer optimum
+        ranges = [range(int(a), int(b) + 1) for a, b in zip(qp.lo, qp.hi, strict=True)]
+        pts = np.array(list(itertools.product(*ranges)), float)
+        ok = [qp.is_feasible(p) for p in pts]
+        assert qp.value(x) >= min(qp.value(p) for p, k in zip(pts, ok, strict=True) if k) - 1e-12
+    assert found >= 30
+
+
+def test_best_rounded_returns_none_when_no_point_exists():
+    qp = HedgeQP(M=np.eye(2), u=np.array([0.6, 0.8]), lo=np.array([2.0, -1.0]),
+                 hi=np.array([3.0, 1.0]), G=np.array([[1.0, 0.0]]), h=np.array([1.0]))
+    assert best_rounded(qp, np.array([2.0, 0.0])) is None
