@@ -145,6 +145,9 @@ class HedgeFormulation:
                 kwargs["warm_start"] = True
         else:
             solver = solver or "CLARABEL"
+            if solver == "CLARABEL":
+                # tight tolerances: the relaxation is reported as a bound on whole contracts
+                kwargs.update(tol_gap_abs=1e-10, tol_gap_rel=1e-10, tol_feas=1e-10)
         try:
             self.problem.solve(solver=solver, **kwargs)
         except cp.error.SolverError as exc:
