@@ -10,7 +10,6 @@ third ``[[exposure]]`` table). Paths in the book are relative to the book's fold
 from __future__ import annotations
 
 import math
-import tomllib
 from datetime import date
 from pathlib import Path
 from typing import Any, Literal
@@ -18,6 +17,7 @@ from typing import Any, Literal
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError
 
 from data_adapters.errors import InputError, from_validation_error
+from data_adapters.toml_file import read_toml
 from data_adapters.units import parse_price_unit, units_in_price_unit
 
 __all__ = [
@@ -256,19 +256,7 @@ def load_book(path: str | Path) -> Book:
     """
     p = Path(path)
     source = str(path)
-    if not p.exists():
-        raise InputError("book file not found", file=source)
-    if p.is_dir():
-        raise InputError("is a folder, not a book file", file=source)
-    try:
-        with p.open("rb") as fh:
-            data = tomllib.load(fh)
-    except tomllib.TOMLDecodeError as err:
-        raise InputError(f"TOML syntax error: {err}", file=source) from None
-    except UnicodeDecodeError as err:
-        raise InputError(f"not UTF-8 text: {err.reason}", file=source) from None
-    except OSError as err:
-        raise InputError(f"cannot read: {err.strerror}", file=source) from None
+    data = read_toml(p, "book file")
     book = Book.from_dict(data, p.parent, source)
     book._path = p
     return book

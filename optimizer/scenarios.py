@@ -56,13 +56,12 @@ from __future__ import annotations
 
 import itertools
 import math
-import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from data_adapters.book import Book
-from data_adapters.errors import InputError
+from data_adapters.toml_file import read_toml
 
 from .scenario_checks import (
     _CHOICES,
@@ -251,16 +250,8 @@ def parse_scenarios(data: dict, book: Book, source: str = "scenarios.toml") -> S
 
 def load_scenarios(path: str | Path, book: Book) -> ScenarioSet:
     """Read, validate and expand a scenario file for ``book``."""
-    p, source = Path(path), str(path)
-    if not p.is_file():
-        raise InputError("scenario file not found", file=source)
-    try:
-        with p.open("rb") as fh:
-            data = tomllib.load(fh)
-    except tomllib.TOMLDecodeError as err:
-        raise InputError(f"TOML syntax error: {err}", file=source) from None
-    except (UnicodeDecodeError, OSError) as err:
-        raise InputError(f"cannot read: {err}", file=source) from None
+    data = read_toml(path, "scenario file")
+    source = str(path)
     return parse_scenarios(data, book, source)
 
 

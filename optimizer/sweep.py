@@ -301,6 +301,17 @@ def _mp_context():
     return mp.get_context("spawn")
 
 
+def _collect(finished, results: list, done: int, total: int, progress) -> int:
+    """Store each finished chunk's results in place; report progress; return the count done."""
+    for fut in finished:
+        for i, r in fut.result():
+            results[i] = r
+            done += 1
+        if progress:
+            progress(done, total)
+    return done
+
+
 def run_sweep(book: Any, scenarios: ScenarioSet | list[Scenario], *, method: str = "exact",
               workers: int = 1, scheduler: Any = None, progress: Progress | None = None,
               reuse: bool = True, time_limit: float = 30.0, runner: SweepRunner | None = None,
@@ -360,12 +371,7 @@ def run_sweep(book: Any, scenarios: ScenarioSet | list[Scenario], *, method: str
                 futs = [client.submit(_run_chunk, payload, ch, pure=False)
                         for ch in _chunks(items, 4 * n_workers)]
                 mode = f"dask ({n_workers} workers at {client.scheduler.address})"
-                for fut in dask_completed(futs):
-                    for i, r in fut.result():
-                        results[i] = r
-                        done += 1
-                    if progress:
-                        progress(done, total)
+                done = _collect(dask_completed(futs), results, done, total, progress)
             finally:
                 if client is not scheduler:
                     client.close()
@@ -375,12 +381,7 @@ def run_sweep(book: Any, scenarios: ScenarioSet | list[Scenario], *, method: str
             ex = pool or ProcessPoolExecutor(max_workers=workers, mp_context=_mp_context())
             try:
                 futs = [ex.submit(_run_chunk, payload, ch) for ch in _chunks(items, 4 * workers)]
-                for fut in as_completed(futs):
-                    for i, r in fut.result():
-                        results[i] = r
-                        done += 1
-                    if progress:
-                        progress(done, total)
+                done = _collect(as_completed(futs), results, done, total, progress)
             finally:
                 if own:
                     ex.shutdown(wait=True, cancel_futures=True)
