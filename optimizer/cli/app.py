@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import contextlib
 import json
 import shutil
 import sys
@@ -11,7 +12,7 @@ from pathlib import Path
 import typer
 from rich.table import Table
 
-from .common import EXIT_NO_HEDGE, fail, guarded, out
+from .common import EXIT_NO_HEDGE, err, fail, guarded, out
 
 app = typer.Typer(add_completion=False, no_args_is_help=True,
                   help="Joint minimum-variance cross hedges in whole futures contracts.")
@@ -36,7 +37,10 @@ def _solve_and_show(book, method, trades, as_json, time_limit, **overrides) -> N
         fail(f"unknown method '{method}'; valid: exact, round, continuous")
     if trades is not None and method == "continuous":
         fail("--trades needs whole contracts: use --method exact or round")
-    report = solve_book(book, method, time_limit=time_limit, **overrides)
+    busy = (err.status("estimating and solving the hedge…") if err.is_terminal
+            else contextlib.nullcontext())
+    with busy:
+        report = solve_book(book, method, time_limit=time_limit, **overrides)
     if not report.ok:
         if as_json:
             print(json.dumps(report.to_dict(), indent=2))
