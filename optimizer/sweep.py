@@ -301,6 +301,15 @@ def _mp_context():
     return mp.get_context("spawn")
 
 
+def _connect(client_cls, address: str):
+    """A dask client for ``address``, or one clear error naming the address."""
+    try:
+        return client_cls(address, timeout=30)
+    except (OSError, ValueError, TimeoutError) as exc:
+        raise InputError(f"cannot reach a dask scheduler at {address!r}: {exc}",
+                         key="--scheduler") from None
+
+
 def _collect(finished, results: list, done: int, total: int, progress) -> int:
     """Store each finished chunk's results in place; report progress; return the count done."""
     for fut in finished:
@@ -365,7 +374,7 @@ def run_sweep(book: Any, scenarios: ScenarioSet | list[Scenario], *, method: str
             from distributed import Client
             from distributed import as_completed as dask_completed
 
-            client = scheduler if isinstance(scheduler, Client) else Client(scheduler, timeout=60)
+            client = scheduler if isinstance(scheduler, Client) else _connect(Client, scheduler)
             try:
                 n_workers = max(1, len(client.scheduler_info().get("workers", {})))
                 futs = [client.submit(_run_chunk, payload, ch, pure=False)
