@@ -14,7 +14,7 @@ from datetime import date
 from pathlib import Path
 from typing import Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError
+from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, field_validator
 
 from data_adapters.errors import InputError, from_validation_error
 from data_adapters.toml_file import read_toml
@@ -29,6 +29,7 @@ __all__ = [
     "Exposure",
     "GroupLimit",
     "Instrument",
+    "RollSpec",
     "SeriesSpec",
     "load_book",
 ]
@@ -51,16 +52,44 @@ class BookMeta(_Model):
     as_of: date | None = None
 
 
+class RollSpec(_Model):
+    """``[data.roll]``: how per-contract prices become generic months (``format = "contracts"``).
+
+    ``expiries`` is a file with columns contract, last_trade, product; ``roll_days`` business
+    days before ``last_trade`` the position moves to the next contract; ``adjust`` is the
+    back-adjustment of older history (see :func:`data_adapters.rolls.roll_generic`).
+    """
+
+    expiries: str = Field(min_length=1)
+    roll_days: int = Field(5, ge=0)
+    adjust: Literal["ratio", "difference", "none"] = "ratio"
+    contract_column: str = Field("contract", min_length=1)
+
+
+_FORMATS = ("wide", "long", "contracts")
+
+
 class DataSpec(_Model):
     """``[data]``: where the price history is and how it is laid out."""
 
     prices: str = Field(min_length=1)
-    format: Literal["wide", "long"] = "wide"
+    format: str = "wide"
     date_column: str = Field("date", min_length=1)
     series_column: str = Field("series", min_length=1)
     price_column: str = Field("price", min_length=1)
     max_gap_days: int = Field(7, ge=1)
     table: str = Field("prices", min_length=1)  # table name when prices is a SQLite database
+    roll: RollSpec | None = None
+
+    @field_validator("format")
+    @classmethod
+    def _known_format(cls, value: str) -> str:
+        if value not in _FORMATS:
+            raise ValueError(
+                "must be 'wide' or 'long' (one series per column or per row), or 'contracts' "
+                "(per-contract prices rolled into generic months by [data.roll])"
+            )
+        return value
 
 
 class EstimationSpec(_Model):
@@ -188,6 +217,11 @@ class Book(_Model):
         """The price history file, resolved against the book's folder."""
         return self.folder / self.data.prices
 
+    @property
+    def expiries_path(self) -> Path | None:
+        """The contract expiries file of ``[data.roll]``, resolved; None without a roll table."""
+        return None if self.data.roll is None else self.folder / self.data.roll.expiries
+
     def series_ids(self) -> list[str]:
         """Series used by exposures and instruments, in order of first use."""
         seen: dict[str, None] = {}
@@ -280,6 +314,19 @@ def _check_unique(items: list, table: str, source: str) -> None:
 def _check(book: Book, source: str) -> None:
     """Checks that span several keys; each raises InputError naming the key."""
     currency = book.book.currency
+    if book.data.format == "contracts" and book.data.roll is None:
+        raise InputError(
+            "format = 'contracts' needs a [data.roll] table naming the expiries file",
+            file=source,
+            key="data.roll",
+        )
+    if book.data.roll is not None and book.data.format != "contracts":
+        raise InputError(
+            f"[data.roll] is only used with format = 'contracts' (format is "
+            f"{book.data.format!r})",
+            file=source,
+            key="data.roll",
+        )
     units: dict[str, str] = {}
     for name, spec in book.series.items():
         key = f"series.{name}.unit"

@@ -6,6 +6,9 @@ Layouts (``format``):
     A date column and one price column per series.
 ``long``
     Columns date, series, price; one row per series and date.
+``contracts``
+    Columns date, contract, price, rolled into generic months by :mod:`data_adapters.rolls`
+    (through :func:`load_prices` and the book's ``[data.roll]`` table).
 
 Readers are chosen by suffix: ``.csv`` (UTF-8, optional BOM), ``.parquet`` and ``.xlsx`` (needs
 the ``openpyxl`` package; first sheet, header in the first row). Rows are numbered as a person
@@ -375,6 +378,10 @@ def check_positive(
 def load_prices(book) -> PricePanel:
     """Read the prices of a :class:`~data_adapters.book.Book` (its ``[data]`` and series)."""
     d = book.data
+    if d.format == "contracts":
+        from data_adapters.rolls import load_contract_prices  # rolls imports this module
+
+        return load_contract_prices(book)
     source_path = book.prices_path
     return read_prices(
         source_path,
