@@ -20,8 +20,12 @@ cheapest reachable contribution of the variables not yet fixed. At the last leve
 
 Steps: (1) the relaxation (:func:`optimizer.formulation.solve_relaxed`) is refined by an
 active-set KKT solve (:func:`optimizer.integer_bounds.polish`), whose multipliers give the tighter
-root bound (the solver's own objective can be off by ~1e-7 on curve books); (2) an incumbent from
-:func:`optimizer.rounding.best_rounded`; (3) enumeration over the contract counts
+root bound (the solver's own objective can be off by ~1e-7 on curve books); books of up to 24
+instruments without a margin budget, when no relaxation is passed in, first try that active-set
+solve alone (:func:`optimizer.integer_bounds.quick_relaxation`, accepted only when its KKT
+conditions check) and skip the conic solver; (2) an incumbent from
+:func:`optimizer.rounding.best_rounded`, or the caller's ``start`` when it is feasible and better;
+(3) enumeration over the contract counts
 (:mod:`optimizer.integer_search`); (4) for books of 12 or more instruments without a margin budget
 that are not finished after 5 % of the time limit (at least 0.3 s), the same enumeration in
 LLL-reduced coordinates (:mod:`optimizer.integer_lattice`), which copes with months that move
@@ -50,7 +54,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .formulation import solve_relaxed, solve_scip
-from .integer_bounds import lagrangian_terms, polish, prepare_root
+from .integer_bounds import lagrangian_terms, polish, prepare_root, quick_relaxation
 from .integer_lattice import lattice_root
 from .integer_search import enumerate_levels
 from .qp import HedgeQP
@@ -61,6 +65,7 @@ __all__ = ["IntegerResult", "solve_exact"]
 _TOL = 1e-9
 _ROUNDOFF = 1e-12  # allowance for floating-point error in the partial sums
 _LATTICE_MIN_N = 12  # smaller books finish in the first phase
+_QUICK_MAX_N = 24  # up to this size the relaxation is first tried by an active-set solve
 _PHASE1_SHARE, _PHASE1_MIN = 0.05, 0.3  # time of the first phase: share of the limit, seconds
 
 
@@ -120,8 +125,8 @@ def _infeasible(qp, z, nodes, t0, method) -> IntegerResult:
                          nodes=int(nodes), seconds=time.perf_counter() - t0, method=method)
 
 
-def solve_exact(qp: HedgeQP, *, time_limit: float = 30.0, relaxed=None, tol: float = _TOL
-                ) -> IntegerResult:
+def solve_exact(qp: HedgeQP, *, time_limit: float = 30.0, relaxed=None, tol: float = _TOL,
+                start: np.ndarray | None = None) -> IntegerResult:
     """Whole-contract minimum-variance hedge with a proven lower bound.
 
     Parameters
@@ -135,6 +140,10 @@ def solve_exact(qp: HedgeQP, *, time_limit: float = 30.0, relaxed=None, tol: flo
         the root bound. Any values give a valid bound; accurate ones give a tight one.
     tol : float
         Certification tolerance on ``objective − bound`` in normalised units.
+    start : ndarray, optional
+        A candidate incumbent (for instance the previous rebalance's positions). It is used only
+        when it is whole, finite, feasible and better than the solver's own rounded start; it can
+        speed the search up but never changes the answer's optimality.
 
     Returns
     -------
@@ -157,15 +166,22 @@ def solve_exact(qp: HedgeQP, *, time_limit: float = 30.0, relaxed=None, tol: flo
     lo, hi = integer_box(qp)
     if np.any(lo > hi):
         return _infeasible(qp, np.zeros(qp.n), 0, t0, "box-enumeration")
-    if relaxed is None:
-        relaxed = solve_relaxed(qp)
-    if relaxed.x is not None and np.all(np.isfinite(relaxed.x)):
-        z = np.asarray(relaxed.x, float)
-        lam, mu = relaxed.dual_rows, relaxed.dual_margin
+    quick = None
+    if relaxed is None and qp.n <= _QUICK_MAX_N:
+        quick = quick_relaxation(qp)  # small books: skip the conic solver when KKT is proven
+    if quick is not None:
+        z, lam, mu = quick.x, quick.dual_rows, None
     else:
-        # no relaxed point: any point in the box with zero multipliers still gives a valid bound
-        z = np.minimum(np.maximum(0.0, lo), hi)
-        lam, mu = None, None
+        if relaxed is None:
+            relaxed = solve_relaxed(qp)
+        if relaxed.x is not None and np.all(np.isfinite(relaxed.x)):
+            z = np.asarray(relaxed.x, float)
+            lam, mu = relaxed.dual_rows, relaxed.dual_margin
+        else:
+            # no relaxed point: any point in the box with zero multipliers still gives a valid
+            # bound
+            z = np.minimum(np.maximum(0.0, lo), hi)
+            lam, mu = None, None
     if lam is not None and len(lam) != qp.G.shape[0]:
         lam = None
     inc = best_rounded(qp, z)
@@ -173,10 +189,13 @@ def solve_exact(qp: HedgeQP, *, time_limit: float = 30.0, relaxed=None, tol: flo
     if np.all(np.isfinite(cand)) and qp.is_feasible(cand) and (
             inc is None or qp.value(cand) < qp.value(inc)):
         inc = cand
+    cand = _usable_start(qp, start)
+    if cand is not None and (inc is None or qp.value(cand) < qp.value(inc)):
+        inc = cand
     f_inc = qp.value(inc) if inc is not None else math.inf
     root = prepare_root(qp, z, lam, mu, lo, hi, f_inc)
-    kkt = polish(qp, relaxed)
-    if kkt is not None:  # keep whichever multipliers give the higher (tighter) bound
+    kkt = quick if quick is not None else polish(qp, relaxed)
+    if kkt is not None and quick is None:  # keep the multipliers of the higher (tighter) bound
         root2 = prepare_root(qp, kkt.x, kkt.dual_rows, kkt.dual_margin, lo, hi, f_inc)
         if root2 is not None and (root is None or root2.K > root.K):
             root, z, lam, mu = root2, kkt.x, kkt.dual_rows, kkt.dual_margin
@@ -216,6 +235,16 @@ def solve_exact(qp: HedgeQP, *, time_limit: float = 30.0, relaxed=None, tol: flo
                               bound=frontier)
     bound = max(bound, min(frontier, best_f))
     return _result(qp, best_x, bound, nodes, t0, method, tol)
+
+
+def _usable_start(qp: HedgeQP, start) -> np.ndarray | None:
+    """``start`` as a float array when it is a whole, finite, feasible point, else ``None``."""
+    if start is None:
+        return None
+    x = np.asarray(start, dtype=float).reshape(-1)
+    if x.shape != (qp.n,) or not np.all(np.isfinite(x)) or not np.array_equal(x, np.round(x)):
+        return None
+    return x.copy() if qp.is_feasible(x) else None
 
 
 def _scip_fallback(qp, z, lam, mu, lo, hi, inc, deadline, t0, tol, nodes=0, bound=None):

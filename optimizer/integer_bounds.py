@@ -48,7 +48,8 @@ from scipy.linalg import solve_triangular
 
 from .qp import HedgeQP
 
-__all__ = ["RootData", "lagrangian_terms", "finite_box", "search_order", "prepare_root"]
+__all__ = ["RootData", "lagrangian_terms", "finite_box", "search_order", "prepare_root", "polish",
+           "quick_relaxation"]
 
 _EPS = 1e-9
 _COND_MAX = 1e7  # largest condition number of R trusted for ellipsoid boxes
@@ -237,8 +238,9 @@ def polish(qp: HedgeQP, relaxed, act_tol: float = 1e-6, max_iter: int | None = N
     scale = 1.0 + np.abs(d)
     active = list(np.flatnonzero(C @ z >= d - act_tol * scale))
     A2, b2 = 2 * qp.A, -2 * qp.b
-    x, nu = z, np.zeros(0)
+    x, nu, solved = z, np.zeros(0), []
     for _ in range(max_iter if max_iter is not None else 3 * n + 10):
+        solved = list(active)  # the set that x and nu belong to (the cap may stop mid-change)
         E = C[active]
         p = len(active)
         Kkt = np.block([[A2, E.T], [E, np.zeros((p, p))]])
@@ -257,9 +259,50 @@ def polish(qp: HedgeQP, relaxed, act_tol: float = 1e-6, max_iter: int | None = N
     if not np.all(np.isfinite(x)):
         return None
     mult = np.zeros(len(d))
-    mult[active] = np.maximum(nu, 0.0)
+    mult[solved] = np.maximum(nu, 0.0)
     dual_hi, dual_lo = np.zeros(n), np.zeros(n)
     dual_hi[fin_hi] = mult[: len(fin_hi)]
     dual_lo[fin_lo] = mult[len(fin_hi): len(fin_hi) + len(fin_lo)]
     return KKTPoint(x=x, dual_lo=dual_lo, dual_hi=dual_hi, dual_rows=mult[len(d) - g:],
                     dual_margin=None)
+
+
+@dataclass(frozen=True)
+class _Start:
+    x: np.ndarray
+
+
+def quick_relaxation(qp: HedgeQP, tol: float = 1e-9) -> KKTPoint | None:
+    """The continuous relaxation without a conic solver, when an active-set solve proves it.
+
+    Start :func:`polish` from the free least-squares optimum clipped into the box and accept the
+    result only if it satisfies the KKT conditions of the convex QP — ``Cx ≤ d`` (bounds and rows),
+    multipliers ``ν ≥ 0`` and ``‖2Ax + 2b + Cᵀν‖∞ ≤ tol (1 + ‖2b‖∞)`` — which makes it the relaxed
+    optimum (Nocedal & Wright 2006, Theorem 16.4: KKT conditions are sufficient for convex QP).
+    Returns ``None`` with a margin budget, for a non-finite result or when the check fails (the
+    caller then solves the relaxation with the conic solver). Any answer gives a valid bound; the
+    check only guards its tightness.
+    """
+    if qp.margin_budget is not None and qp.margin is not None:
+        return None
+    lo, hi = np.asarray(qp.lo, float), np.asarray(qp.hi, float)
+    if np.any(lo > hi):
+        return None
+    x0 = np.linalg.lstsq(qp.M, -qp.u, rcond=None)[0]
+    x0 = np.minimum(np.maximum(x0, lo), hi)
+    kkt = polish(qp, _Start(x=x0), act_tol=1e-12)
+    if kkt is None:
+        return None
+    x = kkt.x
+    scale = 1.0 + float(np.max(np.abs(2.0 * qp.b), initial=0.0))
+    grad = 2.0 * (qp.A @ x + qp.b) + kkt.dual_hi - kkt.dual_lo
+    if qp.G.shape[0]:
+        grad += qp.G.T @ kkt.dual_rows
+        if np.any(qp.G @ x > qp.h + tol * (1.0 + np.abs(qp.h))):
+            return None
+    with np.errstate(invalid="ignore"):
+        if np.any(x < lo - tol * (1.0 + np.abs(lo))) or np.any(x > hi + tol * (1.0 + np.abs(hi))):
+            return None
+    if not np.all(np.isfinite(grad)) or float(np.max(np.abs(grad))) > tol * scale:
+        return None
+    return kkt

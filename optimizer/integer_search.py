@@ -12,9 +12,13 @@ order by a two-pointer walk outwards from its integer minimiser (zig-zag); the f
 partial sum reaches the incumbent ends the level. Before a level is entered its range is cut to
 the values that can still meet every row and the margin budget, given the cheapest reachable
 contribution of the levels not yet fixed. At the last level the true ``f`` (a convex quadratic in
-``y_0``) is minimised directly. The clock is read every 1024 nodes; on time-out the bound is the
-smallest partial sum of the unexplored subtrees (the next value at each level of the current
-path, and the node being entered).
+``y_0``) is minimised directly; it is scored with scalars from the exact expansion
+``f(y) = f(z) + 2gᵀδ + Σ_i (R_ii δ_i + t_i)²`` (``g = Az + b``, accumulated along the path) and only
+a leaf that beats the incumbent is re-evaluated from scratch. The coupling
+``t_{i−1} = Σ_{j≥i} R_{i−1,j} δ_j`` of a child is linear in the parent's value, so the parent
+computes it once and passes it down. The clock is read every 1024 nodes; on time-out the bound
+is the smallest partial sum of the unexplored subtrees (the next value at each level of the
+current path, and the node being entered).
 
 References
 ----------
@@ -61,6 +65,7 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
         X, Gl, hl = root.X, root.Gl, root.hl
     R = root.R
     Rd = [float(v) for v in np.diag(R)]
+    R1 = [0.0] + [float(R[i - 1, i]) for i in range(1, n)]  # superdiagonal
     z = [float(v) for v in root.z]
     sl = [float(v) for v in root.slope]
     aw = [float(v) for v in root.absw]
@@ -71,9 +76,13 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
     u = qp.u
     A = X.T @ qp.A @ X
     bp = X.T @ qp.b
-    A00 = float(A[0, 0])
-    b0 = float(bp[0])
     off = float(getattr(qp, "offset", 0.0))  # constant outside ‖Mx + u‖²
+    # exact expansion of the true objective around the centre: with δ = y − z and g = A z + b,
+    # f(y) = f(z) + 2gᵀδ + Σ_i (R_ii δ_i + t_i)², so a leaf is scored with scalars only
+    zl = np.asarray(root.z, float)
+    rz = Mp @ zl + u
+    fz = float(rz @ rz) + off
+    g2 = [2.0 * float(v) for v in (A @ zl + bp)]
     delta = np.zeros(n)
     xs = np.zeros(n)
     pending = [math.inf] * n
@@ -108,7 +117,7 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
         mg = [0.0] * n
     floor, ceil, inf = math.floor, math.ceil, math.inf
 
-    def visit(i, partial, ms):
+    def visit(i, partial, ms, qa, t):
         nodes[0] += 1
         if not nodes[0] & 1023 and time.perf_counter() > deadline:
             raise _Stop(partial)
@@ -138,7 +147,6 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
                     L = -k
         if L > U:
             return
-        t = float(R[i, i + 1:] @ delta[i + 1:]) if i < n - 1 else 0.0
         rd, zi, si, wi, pmi = Rd[i], z[i], sl[i], aw[i], pm[i]
         tz = t - rd * zi  # quadratic term is (rd*v + tz)^2
         cz = -si * zi - pmi
@@ -173,10 +181,17 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
         if partial + ps >= best:
             return
         if i == 0:
-            # true f is a convex quadratic in x_0: minimise it exactly on [L, U]
-            xs[0] = 0.0
-            lin = float(A[0] @ xs) + b0
-            v = min(max(int(round(-lin / A00)), L), U) if A00 > 0 else (L if lin > 0 else U)
+            # true f is the convex quadratic fz + qa + (rd v + tz)² + g2_0 (v − z_0) in y_0:
+            # minimise it exactly on [L, U], then re-evaluate the winner from scratch
+            g0 = g2[0]
+            a0 = rd * rd
+            if a0 > 0:
+                v = min(max(int(round(-(tz * rd + 0.5 * g0) / a0)), L), U)
+            else:
+                v = L if rd * tz + 0.5 * g0 > 0 else U
+            q = rd * v + tz
+            if fz + qa + q * q + g0 * (v - zi) >= best + 1e-13 * (1.0 + abs(best)):
+                return
             xs[0] = v
             r = Mp @ xs + u
             fv = float(r @ r) + off
@@ -185,6 +200,10 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
                 if qp.is_feasible(x_orig):
                     state["f"], state["x"] = fv, x_orig
             return
+        g2i = g2[i]
+        # the child's coupling t_{i−1} = Σ_{j≥i} R_{i−1,j} δ_j, linear in this level's value
+        tb = float(R[i - 1, i + 1:] @ delta[i + 1:]) if i < n - 1 else 0.0
+        rc = R1[i]
         left, right = s - 1, s + 1
         if left >= L:
             q = rd * left + tz
@@ -201,12 +220,15 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
             v = partial + pc
             if v >= state["f"]:
                 break
+            dc = cur - zi
+            tc = tb + rc * dc
             pending[i] = partial + (pl if pl < pr else pr)
-            delta[i] = cur - zi
+            delta[i] = dc
             xs[i] = cur
             for r, c, _ in rows:
                 gs[r] += c * cur
-            visit(i - 1, v, ms + mi * abs(cur))
+            q = rd * cur + tz
+            visit(i - 1, v, ms + mi * abs(cur), qa + q * q + g2i * dc, tc)
             for r, c, _ in rows:
                 gs[r] -= c * cur
             if pl <= pr:
@@ -231,7 +253,7 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
 
     frontier = None
     try:
-        visit(n - 1, root.K, 0.0)
+        visit(n - 1, root.K, 0.0, 0.0, 0.0)
     except _Stop as stop:
         frontier = min([stop.partial] + pending)
     return state["f"], state["x"], nodes[0], frontier

@@ -106,19 +106,23 @@ def _pair_move(qp: HedgeQP, A: np.ndarray, grad: np.ndarray, x: np.ndarray,
     """
     n = len(x)
     d = np.diag(A)
-    best: list[tuple[float, int, int, float, float]] = []
-    for s in (1.0, -1.0):
-        for t in (1.0, -1.0):
-            dv = (2 * s * grad + d)[:, None] + (2 * t * grad + d)[None, :] + 2 * s * t * A
-            ok_j = (x + s <= hi) & (x + s >= lo)
-            ok_k = (x + t <= hi) & (x + t >= lo)
-            dv = np.where(ok_j[:, None] & ok_k[None, :], dv, np.inf)
-            dv[np.arange(n), np.arange(n)] = np.inf
-            flat = np.argsort(dv, axis=None)[:tries]
-            best += [(float(dv.flat[f]), *divmod(int(f), n), s, t) for f in flat]
-    for dv, j, k, s, t in sorted(best)[:tries]:
-        if not dv < -1e-15:
+    sj = np.array([1.0, 1.0, -1.0, -1.0])[:, None]  # the four sign pairs (s, t)
+    tk = np.array([1.0, -1.0, 1.0, -1.0])[:, None]
+    dv = ((2 * sj * grad + d)[:, :, None] + (2 * tk * grad + d)[:, None, :]
+          + 2 * (sj * tk)[:, :, None] * A[None])
+    ok_j = (x + sj <= hi) & (x + sj >= lo)
+    ok_k = (x + tk <= hi) & (x + tk >= lo)
+    dv = np.where(ok_j[:, :, None] & ok_k[:, None, :], dv, np.inf)
+    dv[:, np.arange(n), np.arange(n)] = np.inf
+    flat = dv.ravel()
+    m = min(tries, flat.size)
+    top = np.argpartition(flat, m - 1)[:m]
+    for f in top[np.argsort(flat[top], kind="stable")]:
+        if not flat[f] < -1e-15:
             break
+        c, rest = divmod(int(f), n * n)
+        j, k = divmod(rest, n)
+        s, t = float(sj[c, 0]), float(tk[c, 0])
         x[j] += s
         x[k] += t
         if _violation(qp, x) <= _FEAS_TOL:

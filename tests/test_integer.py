@@ -201,3 +201,82 @@ def test_lattice_levels_equal_brute_force():
         assert qp.is_feasible(x)
         checked += 1
     assert checked >= 30
+
+
+def test_start_point_is_used_only_when_feasible_and_never_changes_the_optimum():
+    rng = np.random.default_rng(41)
+    checked = 0
+    for _ in range(60):
+        qp = random_book(rng)
+        best, _ = brute_force(qp)
+        if not np.isfinite(best):
+            continue
+        plain = solve_exact(qp)
+        # reference: exhaustive enumeration, exact by construction
+        assert plain.objective == pytest.approx(best, abs=1e-9)
+        # the optimum itself as start, an infeasible start (outside the box) and a malformed one
+        starts = [plain.x, np.asarray(qp.hi, float) + 1.0, np.full(qp.n + 1, 0.0),
+                  np.full(qp.n, 0.5)]
+        for start in starts:
+            res = solve_exact(qp, start=start)
+            assert res.status == "certified"
+            assert res.objective == pytest.approx(best, abs=1e-9)
+            assert qp.is_feasible(res.x)
+        checked += 1
+    assert checked >= 40
+
+
+def test_quick_relaxation_matches_bounded_least_squares():
+    from scipy.optimize import lsq_linear
+
+    from optimizer.integer_bounds import quick_relaxation
+
+    rng = np.random.default_rng(17)
+    accepted = 0
+    for _ in range(40):
+        n = int(rng.integers(3, 12))
+        k = n + int(rng.integers(0, 4))
+        M = 0.8 * rng.normal(size=(k, 1)) + rng.normal(size=(k, n))
+        u = 3.0 * rng.normal(size=k)
+        lim = rng.integers(1, 4, size=n).astype(float)
+        qp = HedgeQP(M=M, u=u, lo=-lim, hi=lim)
+        kkt = quick_relaxation(qp)
+        # reference: scipy.optimize.lsq_linear, bounded linear least squares
+        ref = lsq_linear(M, -u, bounds=(-lim, lim), method="bvls", tol=1e-12)
+        ref_val = float(np.sum((M @ ref.x + u) ** 2))
+        if kkt is None:
+            continue
+        accepted += 1
+        assert qp.value(kkt.x) == pytest.approx(ref_val, rel=1e-9, abs=1e-12)
+        assert np.all(kkt.dual_lo >= 0) and np.all(kkt.dual_hi >= 0)
+    assert accepted >= 30
+    # with a margin budget the conic solver is always used
+    qp = HedgeQP(M=np.eye(2), u=np.array([0.6, 0.8]), lo=-np.ones(2), hi=np.ones(2),
+                 margin=np.ones(2), margin_budget=1.0)
+    assert quick_relaxation(qp) is None
+
+
+def test_polish_stopped_by_its_iteration_cap_still_returns_consistent_multipliers():
+    from optimizer.integer_bounds import lagrangian_terms, polish
+
+    rng = np.random.default_rng(5)
+    for _ in range(30):
+        qp = random_book(rng)
+        if qp.margin_budget is not None:
+            continue
+        rel = solve_relaxed(qp)
+        if rel.x is None:
+            continue
+        for cap in (1, 2, 3):
+            kkt = polish(qp, rel, max_iter=cap)
+            assert kkt is not None
+            best, _ = brute_force(qp)
+            K, *_ = lagrangian_terms(qp, kkt.x, kkt.dual_rows, None, *integer_box_of(qp))
+            # reference: exhaustive enumeration — a Lagrangian bound never exceeds the optimum
+            assert K <= best + 1e-9
+
+
+def integer_box_of(qp):
+    from optimizer.rounding import integer_box
+
+    return integer_box(qp)
