@@ -67,7 +67,7 @@ def model_of(prep: Prepared, *, fractional: bool = False, prices=None) -> HedgeM
 def solve_model(model: HedgeModel, method: str = "exact", *, time_limit: float = 30.0,
                 notes: list[str] | None = None) -> HedgeReport:
     """Solve a built model and report."""
-    sol = solve_qp(model.qp, method, time_limit=time_limit)
+    sol = solve_qp(model.qp, method, time_limit=time_limit, start=model.current)
     notes = list(notes or [])
     if not sol.ok:
         notes += [f"conflict: {c}" for c in limit_conflicts(model)]

@@ -249,7 +249,8 @@ def _solve_joint(book: Book, changes, estimate, current: np.ndarray, *, whole: b
         return current.copy(), f"held: {exc.message}"
     qp = stable_qp(model.qp, len(model.series))
     how = method if whole else "continuous"
-    sol = solve_qp(qp, how, time_limit=time_limit, reuse=reuse)
+    start = np.round(current) if whole else None  # yesterday's hedge: a good first incumbent
+    sol = solve_qp(qp, how, time_limit=time_limit, reuse=reuse, start=start)
     if sol.ok and np.any(np.abs(sol.x) >= _BIG / 2):  # a stand-in bound binds: solve as given
         sol = solve_qp(model.qp, how, time_limit=time_limit, reuse=False)
     if not sol.ok:

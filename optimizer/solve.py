@@ -55,8 +55,12 @@ def _infeasible(method: str, relaxed: FormulationResult, t0: float) -> HedgeSolu
 
 
 def solve_qp(qp: HedgeQP, method: str = "exact", *, time_limit: float = 30.0,
-             reuse: bool = True) -> HedgeSolution:
-    """Solve ``qp`` with ``method`` (one of :data:`METHODS`)."""
+             reuse: bool = True, start: np.ndarray | None = None) -> HedgeSolution:
+    """Solve ``qp`` with ``method`` (one of :data:`METHODS`).
+
+    ``start`` (whole contracts, e.g. the positions held now) may speed up ``exact``; it is used
+    only if it meets the limits, and never changes the answer.
+    """
     if method not in METHODS:
         raise ValueError(f"unknown method {method!r}; valid: {', '.join(METHODS)}")
     t0 = time.perf_counter()
@@ -82,7 +86,7 @@ def solve_qp(qp: HedgeQP, method: str = "exact", *, time_limit: float = 30.0,
     r = qp.offset
     core = replace(qp, offset=0.0)
     res = solve_exact(core, time_limit=time_limit,
-                      relaxed=replace(relaxed, objective=relaxed.objective - r))
+                      relaxed=replace(relaxed, objective=relaxed.objective - r), start=start)
     if res.status == "infeasible":
         return _infeasible(method, relaxed, t0)
     return HedgeSolution(method, res.status, res.x, qp.value(res.x), max(res.bound + r, 0.0),
