@@ -87,6 +87,8 @@ def register(app: typer.Typer) -> None:
         time_limit: float = typer.Option(10.0, help="Seconds per whole-contract solve."),
         as_json: bool = typer.Option(False, "--json", help="Print one JSON object on stdout."),
         png: Path | None = typer.Option(None, "--png", help="Write the cumulative P&L chart."),
+        workers: int = typer.Option(1, "--workers",
+                                    help="Local processes (one estimator per job)."),
     ) -> None:
         """Rolling out-of-sample backtest: each strategy and estimator, ranked by realised
         variance reduction, with hedge-effectiveness evidence."""
@@ -106,10 +108,17 @@ def register(app: typer.Typer) -> None:
                       TimeElapsedColumn(), console=err, transient=True,
                       disable=as_json) as bar:
             task = bar.add_task("rebalances", total=None)
-            result = run_backtest(prep, step=every, strategies=strat, estimators=ests,
-                                  method=method, time_limit=time_limit,
-                                  progress=lambda done, total: bar.update(task, completed=done,
-                                                                          total=total))
+            tick = lambda done, total: bar.update(task, completed=done, total=total)  # noqa: E731
+            if workers > 1 and len(ests) > 1:
+                from optimizer.backtest_parallel import run_backtest_parallel
+
+                result = run_backtest_parallel(prep, step=every, strategies=strat,
+                                               estimators=ests, method=method,
+                                               time_limit=time_limit, workers=workers,
+                                               progress=tick)
+            else:
+                result = run_backtest(prep, step=every, strategies=strat, estimators=ests,
+                                      method=method, time_limit=time_limit, progress=tick)
         if png is not None:
             from optimizer.backtest_chart import write_backtest_png
 
