@@ -54,11 +54,17 @@ def scenario_set(book, n: int):
     return parse_scenarios(data, book, "benchmark grid")
 
 
+REPEATS = 3  # each configuration is timed this many times; the fastest run counts
+
+
 def timed(label, fn, n, rows):
-    t0 = time.perf_counter()
-    res = fn()
-    dt = time.perf_counter() - t0
-    rows.append((label, n / dt, dt))
+    """Time ``fn`` REPEATS times and keep the fastest (as timeit does: noise only slows)."""
+    best, res = float("inf"), None
+    for _ in range(REPEATS):
+        t0 = time.perf_counter()
+        res = fn()
+        best = min(best, time.perf_counter() - t0)
+    rows.append((label, n / best, best))
     return res
 
 
@@ -120,7 +126,33 @@ def main(argv=None) -> int:
     print(f"\ngoal reuse ≥ 5× rebuild: {reuse_x:.2f}× — {'met' if reuse_x >= 5 else 'NOT met'}")
     print(f"goal 2 workers ≥ 1.7× serial: {proc_x:.2f}× (warm pool) — "
           f"{'met' if proc_x >= 1.7 else 'NOT met'}")
+    ceiling = cpu_ceiling()
+    print(f"this machine's own ceiling, a pure-Python loop on 2 processes: {ceiling:.2f}× "
+          f"(the sweep reaches {proc_x / ceiling:.0%} of it)")
     return 0
+
+
+def _spin(n: int) -> int:
+    s = 0
+    for i in range(n):
+        s += i * i % 7
+    return s
+
+
+def cpu_ceiling(n: int = 4_000_000) -> float:
+    """Speed-up of 2 processes over 1 on pure CPU work with no data: the machine's ceiling."""
+    from concurrent.futures import ProcessPoolExecutor
+
+    t = time.perf_counter()
+    _spin(n)
+    _spin(n)
+    serial = time.perf_counter() - t
+    with ProcessPoolExecutor(2) as ex:
+        list(ex.map(_spin, [10, 10]))
+        t = time.perf_counter()
+        list(ex.map(_spin, [n, n]))
+        par = time.perf_counter() - t
+    return serial / par
 
 
 if __name__ == "__main__":
