@@ -1,21 +1,25 @@
 """Turn files into validated books and aligned price panels (plus units, errors, output)."""
 
-from data_adapters.book import (
-    Book,
-    BookMeta,
-    Constraints,
-    DataSpec,
-    EstimationSpec,
-    Exposure,
-    GroupLimit,
-    Instrument,
-    SeriesSpec,
-    load_book,
-)
-from data_adapters.errors import InputError
-from data_adapters.output import atomic_path, atomic_write, write_csv_atomic, write_text_atomic
-from data_adapters.prices import PricePanel, check_positive, load_prices, read_prices
-from data_adapters.units import parse_price_unit, units_in_price_unit, ureg
+from importlib import import_module
+
+# Names are loaded on first use (PEP 562), so importing one submodule (e.g. the errors, which the
+# command line needs at start-up) does not pull in pandas, pydantic and pint.
+_WHERE = {
+    **dict.fromkeys(["Book", "BookMeta", "Constraints", "DataSpec", "EstimationSpec", "Exposure",
+                     "GroupLimit", "Instrument", "SeriesSpec", "load_book"], "book"),
+    "InputError": "errors",
+    **dict.fromkeys(["atomic_path", "atomic_write", "write_csv_atomic", "write_text_atomic"],
+                    "output"),
+    **dict.fromkeys(["PricePanel", "check_positive", "load_prices", "read_prices"], "prices"),
+    **dict.fromkeys(["parse_price_unit", "units_in_price_unit", "ureg"], "units"),
+}
+
+
+def __getattr__(name: str):
+    if name in _WHERE:
+        return getattr(import_module(f"data_adapters.{_WHERE[name]}"), name)
+    raise AttributeError(f"module 'data_adapters' has no attribute {name!r}")
+
 
 __all__ = [
     "Book",

@@ -3,12 +3,14 @@
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING
 
 from rich.console import Console
 from rich.panel import Panel
 from rich.table import Table
 
-from ..report import HedgeReport
+if TYPE_CHECKING:  # the report module pulls in the solvers; tables only need its shape
+    from ..report import HedgeReport
 
 
 def money(v: float | None, cur: str = "", digits: int = 0) -> str:
