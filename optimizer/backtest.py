@@ -386,7 +386,9 @@ def run_backtest(
     runs = []
     for key in keys:
         T = tgt[key]
-        trades = np.diff(np.vstack([start, T]), axis=0)
+        # "unhedged" is the book without any futures, today's included: it trades nothing
+        first = np.zeros(n) if key[0] == "unhedged" else start
+        trades = np.diff(np.vstack([first, T]), axis=0)
         runs.append(Run(key[0], key[1], T, trades, T * per_h, T * per_k, pvr[key], pv0[key],
                         tuple(stat[key]), secs[key]))
     notes = []
