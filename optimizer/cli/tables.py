@@ -75,12 +75,18 @@ def exposure_table(r: HedgeReport) -> Table:
     cur = r.currency
     t = Table(title="Exposures (quantity negative = must buy; risk = Euler share of P&L std)",
               title_justify="left")
-    for name in ["exposure", "series", "quantity", f"value {cur}", f"alone std {cur}",
-                 f"risk before {cur}", f"risk after {cur}"]:
-        t.add_column(name, justify="left" if name in ("exposure", "series") else "right")
+    t.add_column("exposure", no_wrap=True)
+    t.add_column("series", no_wrap=True)
+    t.add_column("quantity", justify="right", no_wrap=True)
+    for name in [f"value {cur}", f"alone std {cur}", f"risk before {cur}", f"risk after {cur}"]:
+        t.add_column(name, justify="right")
     for e in r.exposures:
         t.add_row(e.id, e.series, f"{e.quantity:,.0f} {e.unit}", money(e.value),
                   money(e.standalone_std), money(e.risk_before), money(e.risk_after))
+    legs = sum(i.risk_contribution for i in r.instruments)
+    t.add_row("[dim]futures, all lines[/]", "", "", "", "", money(0.0), money(legs),
+              end_section=True)
+    t.add_row("[bold]book[/]", "", "", "", "", money(r.unhedged_std), money(r.hedged_std))
     return t
 
 
