@@ -17,14 +17,28 @@ contribution of the levels not yet fixed. At the last level the true ``f`` (a co
 a leaf that beats the incumbent is re-evaluated from scratch. The coupling
 ``t_{i−1} = Σ_{j≥i} R_{i−1,j} δ_j`` of a child is linear in the parent's value, so the parent
 computes it once and passes it down. The clock is read every 1024 nodes; on time-out the bound
-is the smallest partial sum of the unexplored subtrees (the next value at each level of the
-current path, and the node being entered).
+is the smallest lower bound of the unexplored subtrees (the values not yet entered at each level
+of the current path, and the node being entered).
+
+On lattice levels a separable integrality bound is added. Once levels ``≥ k`` are fixed, the
+free levels ``0 … k−1`` contribute exactly ``(y − c)ᵀQ_k(y − c)`` with ``Q_k = R[:k,:k]ᵀR[:k,:k]``
+and ``c`` their free (continuous) minimiser, which moves by ``W_k (y_k − c_k)`` when level ``k``
+is fixed. For a diagonal ``0 ⪯ D_k ⪯ Q_k`` (precomputed per level by :func:`level_diagonals`),
+
+    (y − c)ᵀQ_k(y − c) ≥ Σ_l D_k,l (y_l − c_l)² ≥ Σ_l D_k,l (c_l − round c_l)²
+
+for integer ``y``: zero for the continuous relaxation, positive where the centres are
+fractional. A node is pruned when its partial sum plus this bound reaches the incumbent.
 
 References
 ----------
 Agrell, Eriksson, Vardy & Zeger (2002), "Closest point search in lattices", IEEE Trans. Inf.
 Theory 48(8), 2201–2214.
 Schnorr & Euchner (1994), Math. Programming 66, 181–199.
+Buchheim, Caprara & Lodi (2012), "An effective branch-and-bound algorithm for convex quadratic
+integer programming", Math. Programming 135, 369–395 (from memory).
+Buchheim & Wiegele (2013), "Semidefinite relaxations for non-convex quadratic mixed-integer
+programming", Math. Programming 141, 435–452 (diagonal perturbations, from memory).
 """
 
 from __future__ import annotations
@@ -33,12 +47,68 @@ import math
 import time
 
 import numpy as np
+from scipy.linalg import solve_triangular
 
 from .qp import HedgeQP
 
-__all__ = ["enumerate_levels"]
+__all__ = ["enumerate_levels", "level_diagonals"]
 
 _TOL = 1e-9
+_SEP_MIN_N = 3  # separable integrality bound below a node from this many levels
+
+
+def _max_diagonal(Q: np.ndarray, passes: int = 4, share: float = 0.5) -> np.ndarray:
+    """A large diagonal ``D`` with ``0 ⪯ D ⪯ Q`` (``Q`` positive definite), by coordinate ascent.
+
+    In the unit-diagonal scaling ``S = diag(Q)^{−1/2} Q diag(Q)^{−1/2}`` start from half its
+    smallest eigenvalue, then raise each ``d_l`` in turn by ``share / ((S − diag d)⁻¹)_ll`` —
+    lowering one diagonal entry of a positive definite matrix by less than the inverse of the
+    matching entry of its inverse keeps it positive definite — updating the inverse by
+    Sherman–Morrison. A final eigenvalue check shrinks the result until ``S − diag d ⪰ 0``.
+    """
+    s = 1.0 / np.sqrt(np.diag(Q))
+    S = s[:, None] * Q * s[None, :]
+    t = float(np.linalg.eigvalsh(S)[0])
+    if t <= 0:
+        return np.zeros(len(Q))
+    d = np.full(len(Q), 0.5 * t)
+    Si = np.linalg.inv(S - np.diag(d))
+    for _ in range(passes):
+        for j in range(len(Q)):
+            a = share / Si[j, j]
+            col = Si[:, j].copy()
+            Si += (a / (1.0 - a * col[j])) * np.outer(col, col)
+            d[j] += a
+    d *= 1 - 1e-9
+    base = np.full(len(Q), 0.5 * t * (1 - 1e-9))
+    for _ in range(60):
+        if np.linalg.eigvalsh(S - np.diag(d))[0] >= 0:
+            break
+        d = base + 0.5 * (d - base)  # fall back towards the eigenvalue start
+    else:
+        d = np.zeros(len(Q))
+    return d / (s * s)
+
+
+def level_diagonals(R: np.ndarray):
+    """Per level ``i = 2 … n``: centre update ``W_i`` and a diagonal ``0 ⪯ D_i ⪯ Q_i``, or ``None``.
+
+    ``Q_i = R[:i, :i]ᵀ R[:i, :i]`` is the quadratic of the levels ``0 … i−1`` left free once level
+    ``i`` is fixed (``i = n``: the root). ``W_i = −R[:i, :i]⁻¹ R[:i, i]`` moves their free centre
+    when level ``i`` is fixed, ``c' = c[:i] + W_i (y_i − c_i)``; ``W_n = 0``. ``D_i`` from
+    :func:`_max_diagonal`. ``None`` when some ``R_ii`` is zero (no free centre) or ``n < 3``.
+    """
+    n = R.shape[0]
+    d = np.abs(np.diag(R))
+    if n < 3 or d.min() <= 1e-12 * max(d.max(), 1e-300):
+        return None
+    A = R.T @ R
+    W: list = [None] * (n + 1)
+    D: list = [None] * (n + 1)
+    for i in range(2, n + 1):
+        W[i] = -solve_triangular(R[:i, :i], R[:i, i]) if i < n else np.zeros(n)
+        D[i] = _max_diagonal(A[:i, :i])
+    return W, D
 
 
 class _Stop(Exception):
@@ -85,7 +155,6 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
     g2 = [2.0 * float(v) for v in (A @ zl + bp)]
     delta = np.zeros(n)
     xs = np.zeros(n)
-    pending = [math.inf] * n
     nodes = [0]
     state = {"f": best_f, "x": None if best_x is None else np.asarray(best_x, float)}
 
@@ -116,11 +185,40 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
     else:
         mg = [0.0] * n
     floor, ceil, inf = math.floor, math.ceil, math.inf
+    sep = level_diagonals(R) if root.X is not None and n >= _SEP_MIN_N else None
+    Wl, Dl = sep if sep is not None else (None, None)
+    if sep is not None:
+        # largest value the separable bound can take (each distance at most 1/2)
+        capsep = [0.0 if d is None else 0.25 * float(d.sum()) for d in Dl]
 
-    def visit(i, partial, ms, qa, t):
+    def sep_bound(k, c):
+        """Separable bound Σ_l D_k,l (c_l − round c_l)² on the free levels 0 … k−1."""
+        dd = c - np.rint(c)
+        return float(Dl[k] @ (dd * dd))
+
+    def unexplored(i, partial, cv, left, right, L, U, rd, tz, si, wi, cz):
+        """Lower bound on the subtrees of level i's values not yet entered (left…L, right…U)."""
+        def phi(v):
+            q = rd * v + tz
+            return q * q + si * v + wi * abs(v) + cz
+        if cv is None:
+            return partial + min(phi(left) if left >= L else inf, phi(right) if right <= U else inf)
+        low = state["f"]  # values at or above the incumbent are excluded already
+        for side in (range(left, L - 1, -1), range(right, U + 1)):
+            for v in side:  # partial + φ(v) grows along each side (φ convex, walk outwards)
+                p = partial + phi(v)
+                if p >= low:
+                    break
+                p += sep_bound(i, cv[:i] + Wl[i] * (v - cv[i]))
+                if p < low:
+                    low = p
+        return low
+
+    def visit(i, partial, ms, qa, t, pcv, py):
         nodes[0] += 1
         if not nodes[0] & 1023 and time.perf_counter() > deadline:
-            raise _Stop(partial)
+            raise _Stop(partial + (0.0 if pcv is None else sep_bound(
+                i + 1, pcv[:i + 1] + Wl[i + 1] * (py - pcv[i + 1]))))
         # range of x_i that can still meet every row and the margin budget
         L, U = lo[i], hi[i]
         rows = rows_of[i]
@@ -180,6 +278,13 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
         best = state["f"]
         if partial + ps >= best:
             return
+        cv = None
+        if pcv is not None:
+            # free centre of levels 0 … i once level i + 1 is fixed at py, and the separable
+            # integrality bound Σ_l D_l (c_l − round c_l)² ≤ (y − c)ᵀQ(y − c) of those levels
+            cv = pcv[:i + 1] + Wl[i + 1] * (py - pcv[i + 1])
+            if partial + capsep[i + 1] >= best and partial + sep_bound(i + 1, cv) >= best:
+                return
         if i == 0:
             # true f is the convex quadratic fz + qa + (rd v + tz)² + g2_0 (v − z_0) in y_0:
             # minimise it exactly on [L, U], then re-evaluate the winner from scratch
@@ -222,13 +327,18 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
                 break
             dc = cur - zi
             tc = tb + rc * dc
-            pending[i] = partial + (pl if pl < pr else pr)
             delta[i] = dc
             xs[i] = cur
             for r, c, _ in rows:
                 gs[r] += c * cur
             q = rd * cur + tz
-            visit(i - 1, v, ms + mi * abs(cur), qa + q * q + g2i * dc, tc)
+            try:
+                visit(i - 1, v, ms + mi * abs(cur), qa + q * q + g2i * dc, tc,
+                      cv if i > 2 else None, cur)
+            except _Stop as stop:  # add the bound of this level's unexplored values
+                stop.partial = min(stop.partial, unexplored(
+                    i, partial, cv, left, right, L, U, rd, tz, si, wi, cz))
+                raise
             for r, c, _ in rows:
                 gs[r] -= c * cur
             if pl <= pr:
@@ -249,11 +359,13 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
                     pr = q * q + si * right + wi * abs(right) + cz
                 else:
                     pr = inf
-        pending[i] = inf
 
     frontier = None
     try:
-        visit(n - 1, root.K, 0.0, 0.0, 0.0)
+        top = None
+        if sep is not None:  # the root's free centre is z; a virtual level n fixed at z_n = 0
+            top = np.append(np.asarray(root.z, float), 0.0)
+        visit(n - 1, root.K, 0.0, 0.0, 0.0, top, 0.0)
     except _Stop as stop:
-        frontier = min([stop.partial] + pending)
+        frontier = stop.partial
     return state["f"], state["x"], nodes[0], frontier
