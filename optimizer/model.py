@@ -94,7 +94,7 @@ class HedgeModel:
 
     def position(self, n: np.ndarray) -> np.ndarray:
         """Book position per series for futures positions ``n``."""
-        return self.E.sum(axis=0) + self.C.T @ np.asarray(n, dtype=float)
+        return book_position(self.E, self.C, n)
 
     def variance(self, n: np.ndarray) -> float:
         """Variance of the horizon P&L with positions ``n`` (currency²)."""
@@ -108,6 +108,12 @@ class HedgeModel:
     def exposure_values(self) -> np.ndarray:
         """Signed value of each exposure at current prices (currency)."""
         return self.E @ self.prices
+
+
+def book_position(E: np.ndarray, C: np.ndarray, n: np.ndarray) -> np.ndarray:
+    """The book's position per series, ``y = Eᵀ1 + Cᵀn``, for futures positions ``n``."""
+    return np.asarray(E, dtype=float).sum(axis=0) + np.asarray(C, dtype=float).T @ np.asarray(
+        n, dtype=float)
 
 
 @lru_cache(maxsize=1024)

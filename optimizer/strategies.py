@@ -44,6 +44,8 @@ from data_adapters.book import Book
 from data_adapters.errors import InputError
 from data_adapters.units import units_in_price_unit
 
+from .model import book_position
+
 STRATEGIES = ("unhedged", "one-to-one", "single-mv", "joint-continuous", "joint-whole")
 #: strategies whose positions do not depend on the covariance estimator
 ESTIMATOR_FREE = ("unhedged", "one-to-one")
@@ -150,5 +152,5 @@ def single_mv(E: np.ndarray, C: np.ndarray, cov: np.ndarray,
 
 def predicted_variance(E: np.ndarray, C: np.ndarray, cov: np.ndarray, n: np.ndarray) -> float:
     """Model variance ``yᵀ Σ$ y`` of the horizon P&L, ``y = Eᵀ1 + Cᵀn`` (currency², ≥ 0)."""
-    y = E.sum(axis=0) + C.T @ np.asarray(n, dtype=float)
+    y = book_position(E, C, n)
     return float(max(y @ cov @ y, 0.0))

@@ -30,6 +30,7 @@ import numpy as np
 import pandas as pd
 
 from .changes import horizon_changes
+from .model import book_position
 
 __all__ = ["HistoricalMoves", "StressPnL", "historical_moves", "shock_vector", "stress_pnl",
            "worst_window"]
@@ -84,10 +85,9 @@ def shock_vector(series: list[str], prices: np.ndarray, pct: dict[str, float]) -
 def stress_pnl(E: np.ndarray, C: np.ndarray, n: np.ndarray, dP: np.ndarray,
                label: str = "") -> StressPnL:
     """Unhedged ``(Eᵀ1)·dP`` and hedged ``(Eᵀ1 + Cᵀn)·dP`` P&L of a price move (currency)."""
-    e = np.asarray(E, dtype=float).sum(axis=0)
     dP = np.asarray(dP, dtype=float)
-    y = e + np.asarray(C, dtype=float).T @ np.asarray(n, dtype=float)
-    return StressPnL(label, float(e @ dP), float(y @ dP))
+    e = book_position(E, C, np.zeros(np.shape(C)[0]))
+    return StressPnL(label, float(e @ dP), float(book_position(E, C, n) @ dP))
 
 
 def historical_moves(prices: pd.DataFrame, *, horizon_days: int, kind: str) -> HistoricalMoves:

@@ -6,12 +6,11 @@ import json
 from pathlib import Path
 
 import typer
-from rich.panel import Panel
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
 from .common import err, fail, guarded, out
-from .tables import money, num, pct
+from .tables import cautions_panel, money, num, pct
 
 
 def _names(text: str | None, valid: tuple[str, ...], default: list[str], what: str) -> list[str]:
@@ -136,5 +135,4 @@ def register(app: typer.Typer) -> None:
             out.print(f"[dim]note: {note}[/]")
         if png is not None:
             out.print(f"chart written to [bold]{png}[/]")
-        out.print(Panel("\n".join(f"• {c}" for c in CAUTIONS), title="Cautions",
-                        border_style="yellow"))
+        out.print(cautions_panel(CAUTIONS))

@@ -105,8 +105,10 @@ def limits_table(r: HedgeReport) -> Table | None:
     return t
 
 
-def cautions_panel(r: HedgeReport) -> Panel:
-    text = "\n".join(f"• {c}" for c in r.cautions)
+def cautions_panel(r) -> Panel:
+    """The cautions of any result that carries them (``r.cautions``), or a list of lines."""
+    lines = r if isinstance(r, list | tuple) else r.cautions
+    text = "\n".join(f"• {c}" for c in lines)
     return Panel(text, title="Cautions", border_style="yellow")
 
 
