@@ -18,20 +18,19 @@ is cut to the values that can still meet every row of ``G`` and the margin budge
 cheapest reachable contribution of the variables not yet fixed. At the last level the true
 ``f`` (a convex quadratic in ``x_0``) is minimised directly.
 
-Steps: (1) the relaxation (:func:`optimizer.formulation.solve_relaxed`) is refined by an
-active-set KKT solve (:func:`optimizer.integer_bounds.polish`), whose multipliers give the tighter
-root bound (the solver's own objective can be off by ~1e-7 on curve books); books of up to 24
-instruments without a margin budget, when no relaxation is passed in, first try that active-set
-solve alone (:func:`optimizer.integer_bounds.quick_relaxation`, accepted only when its KKT
-conditions check) and skip the conic solver; (2) an incumbent from
-:func:`optimizer.rounding.best_rounded`, or the caller's ``start`` when it is feasible and better;
-(3) enumeration over the contract counts
-(:mod:`optimizer.integer_search`); (4) for books of 12 or more instruments without a margin budget
-that are not finished after 5 % of the time limit (at least 0.3 s), the same enumeration in
-LLL-reduced coordinates (:mod:`optimizer.integer_lattice`), which copes with months that move
-together. When time runs out the bound reported is the best of the root bound and the frontier
-bounds of the phases (each the smallest partial sum of its unexplored subtrees, capped by the
-incumbent). Problems whose boxes cannot be made finite go to SCIP
+Steps: (1) the relaxation (:func:`optimizer.formulation.solve_relaxed`) is refined by an active-set
+KKT solve (:func:`optimizer.integer_bounds.polish`), whose multipliers give the tighter root bound
+(the solver's own objective can be off by ~1e-7 on curve books); books of up to 24 instruments
+without a margin budget, when no relaxation is passed in, first try that active-set solve alone
+(:func:`optimizer.integer_bounds.quick_relaxation`, accepted only when its KKT conditions check) and
+skip the conic solver; (2) an incumbent from :func:`optimizer.rounding.best_rounded`, or the
+caller's ``start`` when it is feasible and better; (3) enumeration over the contract counts
+(:mod:`optimizer.integer_search`, compiled when available); (4) for books of 3 or more instruments
+without a margin budget that are not finished after 1 % of the time limit (at least 0.1 s), the same
+enumeration in LLL-reduced coordinates (:mod:`optimizer.integer_lattice`), which copes with months
+that move together. When time runs out the bound reported is the best of the root bound and the
+frontier bounds of the phases (each the smallest partial sum of its unexplored subtrees, capped by
+the incumbent). Problems whose boxes cannot be made finite go to SCIP
 (:func:`optimizer.formulation.solve_scip`, warm-started); its answer is then reported against the
 Lagrangian bound only, so it is never called certified unless that bound meets it.
 
@@ -64,9 +63,9 @@ __all__ = ["IntegerResult", "solve_exact"]
 
 _TOL = 1e-9
 _ROUNDOFF = 1e-12  # allowance for floating-point error in the partial sums
-_LATTICE_MIN_N = 12  # smaller books finish in the first phase
+_LATTICE_MIN_N = 3  # from this size the lattice phase takes over when the first is slow
 _QUICK_MAX_N = 24  # up to this size the relaxation is first tried by an active-set solve
-_PHASE1_SHARE, _PHASE1_MIN = 0.05, 0.3  # time of the first phase: share of the limit, seconds
+_PHASE1_SHARE, _PHASE1_MIN = 0.01, 0.1  # time of the first phase: share of the limit, seconds
 
 
 @dataclass(frozen=True)

@@ -20,15 +20,14 @@ computes it once and passes it down. The clock is read every 1024 nodes; on time
 is the smallest lower bound of the unexplored subtrees (the values not yet entered at each level
 of the current path, and the node being entered).
 
-On lattice levels a separable integrality bound is added. Once levels ``≥ k`` are fixed, the
-free levels ``0 … k−1`` contribute exactly ``(y − c)ᵀQ_k(y − c)`` with ``Q_k = R[:k,:k]ᵀR[:k,:k]``
-and ``c`` their free (continuous) minimiser, which moves by ``W_k (y_k − c_k)`` when level ``k``
-is fixed. For a diagonal ``0 ⪯ D_k ⪯ Q_k`` (precomputed per level by :func:`level_diagonals`),
+On lattice levels a separable integrality bound on the free levels below a node is added
+(:mod:`optimizer.integer_levels`): a node is pruned when its partial sum plus that bound reaches
+the incumbent.
 
-    (y − c)ᵀQ_k(y − c) ≥ Σ_l D_k,l (y_l − c_l)² ≥ Σ_l D_k,l (c_l − round c_l)²
-
-for integer ``y``: zero for the continuous relaxation, positive where the centres are
-fractional. A node is pruned when its partial sum plus this bound reaches the incumbent.
+Two engines run this search: the compiled twin ``optimizer/native/levels.c``
+(:mod:`optimizer.integer_native`, used when available) and the plain Python below, kept as the
+reference that the tests compare it with — same arrays (:func:`prepare_levels`), same visiting
+order, same node counts.
 
 References
 ----------
@@ -47,68 +46,15 @@ import math
 import time
 
 import numpy as np
-from scipy.linalg import solve_triangular
 
+from .integer_levels import level_diagonals
+from .integer_native import native_search, run_native
 from .qp import HedgeQP
 
-__all__ = ["enumerate_levels", "level_diagonals"]
+__all__ = ["enumerate_levels", "prepare_levels", "level_diagonals"]
 
 _TOL = 1e-9
 _SEP_MIN_N = 3  # separable integrality bound below a node from this many levels
-
-
-def _max_diagonal(Q: np.ndarray, passes: int = 4, share: float = 0.5) -> np.ndarray:
-    """A large diagonal ``D`` with ``0 ⪯ D ⪯ Q`` (``Q`` positive definite), by coordinate ascent.
-
-    In the unit-diagonal scaling ``S = diag(Q)^{−1/2} Q diag(Q)^{−1/2}`` start from half its
-    smallest eigenvalue, then raise each ``d_l`` in turn by ``share / ((S − diag d)⁻¹)_ll`` —
-    lowering one diagonal entry of a positive definite matrix by less than the inverse of the
-    matching entry of its inverse keeps it positive definite — updating the inverse by
-    Sherman–Morrison. A final eigenvalue check shrinks the result until ``S − diag d ⪰ 0``.
-    """
-    s = 1.0 / np.sqrt(np.diag(Q))
-    S = s[:, None] * Q * s[None, :]
-    t = float(np.linalg.eigvalsh(S)[0])
-    if t <= 0:
-        return np.zeros(len(Q))
-    d = np.full(len(Q), 0.5 * t)
-    Si = np.linalg.inv(S - np.diag(d))
-    for _ in range(passes):
-        for j in range(len(Q)):
-            a = share / Si[j, j]
-            col = Si[:, j].copy()
-            Si += (a / (1.0 - a * col[j])) * np.outer(col, col)
-            d[j] += a
-    d *= 1 - 1e-9
-    base = np.full(len(Q), 0.5 * t * (1 - 1e-9))
-    for _ in range(60):
-        if np.linalg.eigvalsh(S - np.diag(d))[0] >= 0:
-            break
-        d = base + 0.5 * (d - base)  # fall back towards the eigenvalue start
-    else:
-        d = np.zeros(len(Q))
-    return d / (s * s)
-
-
-def level_diagonals(R: np.ndarray):
-    """Per level ``i = 2 … n``: centre update ``W_i`` and a diagonal ``0 ⪯ D_i ⪯ Q_i``, or ``None``.
-
-    ``Q_i = R[:i, :i]ᵀ R[:i, :i]`` is the quadratic of the levels ``0 … i−1`` left free once level
-    ``i`` is fixed (``i = n``: the root). ``W_i = −R[:i, :i]⁻¹ R[:i, i]`` moves their free centre
-    when level ``i`` is fixed, ``c' = c[:i] + W_i (y_i − c_i)``; ``W_n = 0``. ``D_i`` from
-    :func:`_max_diagonal`. ``None`` when some ``R_ii`` is zero (no free centre) or ``n < 3``.
-    """
-    n = R.shape[0]
-    d = np.abs(np.diag(R))
-    if n < 3 or d.min() <= 1e-12 * max(d.max(), 1e-300):
-        return None
-    A = R.T @ R
-    W: list = [None] * (n + 1)
-    D: list = [None] * (n + 1)
-    for i in range(2, n + 1):
-        W[i] = -solve_triangular(R[:i, :i], R[:i, i]) if i < n else np.zeros(n)
-        D[i] = _max_diagonal(A[:i, :i])
-    return W, D
 
 
 class _Stop(Exception):
@@ -119,12 +65,15 @@ class _Stop(Exception):
         self.partial = partial
 
 
-def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
-    """Search below incumbent ``best_f`` (``inf`` if none) until done or ``deadline``.
+def prepare_levels(qp: HedgeQP, root, *, node_bounds: bool | None = None,
+                   best_f: float = math.inf) -> dict:
+    """The arrays both searches (pure Python and compiled) run on, in level order.
 
-    Returns ``(best_f, best_x, nodes, frontier)``: ``frontier`` is ``None`` when the search
-    finished, else a lower bound on every point not yet excluded. ``best_x`` is in the original
-    coordinates (``None`` if no feasible point is known).
+    ``node_bounds`` switches the separable integrality bound on or off; by default it is on for
+    lattice levels (``root.X`` set) of at least ``_SEP_MIN_N`` levels. Rows that no point of the box
+    can break are left out, and so, with an incumbent ``best_f``, are rows that no point of the
+    search ellipsoid can break: every point the search scores has ``(y − z)ᵀRᵀR(y − z) ≤ best_f −
+    K``, on which row ``g`` is at most ``gᵀz + √((best_f − K) gᵀ(RᵀR)⁻¹g)``.
     """
     n = qp.n
     perm = root.perm
@@ -133,68 +82,117 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
         Gl, hl = qp.G[:, perm], qp.h
     else:  # levels are lattice coordinates, x = X y
         X, Gl, hl = root.X, root.Gl, root.hl
-    R = root.R
-    Rd = [float(v) for v in np.diag(R)]
-    R1 = [0.0] + [float(R[i - 1, i]) for i in range(1, n)]  # superdiagonal
-    z = [float(v) for v in root.z]
-    sl = [float(v) for v in root.slope]
-    aw = [float(v) for v in root.absw]
-    pm = [float(v) for v in root.psimin]
-    lo = [int(v) for v in root.lo]
-    hi = [int(v) for v in root.hi]
+    R = np.ascontiguousarray(root.R, float)
+    zl = np.asarray(root.z, float)
     Mp = qp.M @ X
-    u = qp.u
     A = X.T @ qp.A @ X
     bp = X.T @ qp.b
     off = float(getattr(qp, "offset", 0.0))  # constant outside ‖Mx + u‖²
     # exact expansion of the true objective around the centre: with δ = y − z and g = A z + b,
     # f(y) = f(z) + 2gᵀδ + Σ_i (R_ii δ_i + t_i)², so a leaf is scored with scalars only
-    zl = np.asarray(root.z, float)
-    rz = Mp @ zl + u
-    fz = float(rz @ rz) + off
-    g2 = [2.0 * float(v) for v in (A @ zl + bp)]
-    delta = np.zeros(n)
-    xs = np.zeros(n)
-    nodes = [0]
-    state = {"f": best_f, "x": None if best_x is None else np.asarray(best_x, float)}
-
+    rz = Mp @ zl + qp.u
     # rows that no point of the box can break are left out of the search
     can_bind = np.maximum(Gl * root.lo, Gl * root.hi).sum(axis=1) > np.asarray(hl) + _TOL
-    Gl, hl = Gl[can_bind], np.asarray(hl)[can_bind]
+    r2 = best_f - float(root.K)
+    dR = np.abs(np.diag(R))
+    if can_bind.any() and np.isfinite(r2) and r2 >= 0 and dR.min() > 1e-12 * max(dR.max(), 1e-300):
+        V = np.linalg.solve(R.T, np.asarray(Gl, float).T)  # columns R⁻ᵀg: ‖·‖² = gᵀ(RᵀR)⁻¹g
+        reach = Gl @ zl + np.sqrt(r2 * (V * V).sum(axis=0)) * (1 + 1e-9) + 1e-9
+        can_bind &= ~(reach < np.asarray(hl) - _TOL * (1 + np.abs(np.asarray(hl))))
+    Gl, hl = np.asarray(Gl[can_bind], float).reshape(-1, n), np.asarray(hl, float)[can_bind]
     g = Gl.shape[0]
-    if g:
-        Gp = Gl
-        h = [float(v) for v in hl]
-        low = np.minimum(Gp * root.lo, Gp * root.hi)  # cheapest contribution of each variable
-        # minimum reachable row sums of the levels below i (not yet fixed when i is entered)
-        rest = np.vstack([np.zeros(g), np.cumsum(low.T, axis=0)[:-1]])
-        rows_of = [[(r, float(Gp[r, i]), float(rest[i, r])) for r in np.flatnonzero(Gp[:, i])]
-                   for i in range(n)]
-    else:
-        rows_of = [[] for _ in range(n)]
-    gs = [0.0] * g
+    low = np.minimum(Gl * root.lo, Gl * root.hi)  # cheapest contribution of each variable
+    # minimum reachable row sums of the levels below i (not yet fixed when i is entered)
+    rest = (np.vstack([np.zeros(g), np.cumsum(low.T, axis=0)[:-1]]) if g
+            else np.zeros((n, 0)))
     has_m = qp.margin_budget is not None and qp.margin is not None
     if has_m and root.X is not None:
         raise ValueError("lattice levels do not carry the margin budget")
     if has_m:
-        mg = [float(v) for v in np.asarray(qp.margin, float)[perm]]
-        dist0 = np.maximum(np.maximum(root.lo, -root.hi), 0.0) * np.asarray(qp.margin, float)[perm]
-        mrest = [0.0] + [float(v) for v in np.cumsum(dist0)[:-1]]
+        mg = np.asarray(qp.margin, float)[perm]
+        dist0 = np.maximum(np.maximum(root.lo, -root.hi), 0.0) * mg
+        mrest = np.concatenate([[0.0], np.cumsum(dist0)[:-1]])
         budget = float(qp.margin_budget)
-        mtol = _TOL * (1 + budget)
     else:
-        mg = [0.0] * n
-    floor, ceil, inf = math.floor, math.ceil, math.inf
-    sep = level_diagonals(R) if root.X is not None and n >= _SEP_MIN_N else None
-    Wl, Dl = sep if sep is not None else (None, None)
+        mg, mrest, budget = np.zeros(n), np.zeros(n), 0.0
+    if node_bounds is None:
+        node_bounds = root.X is not None and n >= _SEP_MIN_N
+    sep = level_diagonals(R) if node_bounds and n >= 3 else None
+    W = D = capsep = None
     if sep is not None:
+        Wl, Dl = sep
+        W, D = np.zeros((n + 1, n)), np.zeros((n + 1, n))
+        for k in range(2, n + 1):
+            W[k, :k] = Wl[k][:k]
+            D[k, :k] = Dl[k]
         # largest value the separable bound can take (each distance at most 1/2)
-        capsep = [0.0 if d is None else 0.25 * float(d.sum()) for d in Dl]
+        capsep = 0.25 * D.sum(axis=1)
+    return dict(n=n, g=g, X=X, R=R, z=zl, slope=np.asarray(root.slope, float),
+                absw=np.asarray(root.absw, float), psimin=np.asarray(root.psimin, float),
+                lo=np.asarray(root.lo).astype(np.int64), hi=np.asarray(root.hi).astype(np.int64),
+                G=Gl, h=hl, rest=rest, has_m=has_m, mg=mg, mrest=mrest, budget=budget,
+                mtol=_TOL * (1 + budget), Mp=Mp, u=qp.u, off=off, fz=float(rz @ rz) + off,
+                g2=2.0 * (A @ zl + bp), W=W, D=D, capsep=capsep, K=float(root.K))
 
-    def sep_bound(k, c):
+
+def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float, *,
+                     engine: str | None = None, node_bounds: bool | None = None):
+    """Search below incumbent ``best_f`` (``inf`` if none) until done or ``deadline``.
+
+    Returns ``(best_f, best_x, nodes, frontier)``: ``frontier`` is ``None`` when the search
+    finished, else a lower bound on every point not yet excluded. ``best_x`` is in the original
+    coordinates (``None`` if no feasible point is known). ``engine`` is ``"native"`` (the
+    compiled twin, :mod:`optimizer.integer_native`), ``"python"`` or ``None`` (native when
+    available).
+    """
+    prep = prepare_levels(qp, root, node_bounds=node_bounds, best_f=best_f)
+    use_native = engine == "native" or (engine is None and native_search())
+    x0 = None if best_x is None else np.asarray(best_x, float)
+    if use_native:
+        f, y, nodes, frontier = run_native(prep, best_f, deadline - time.perf_counter())
+        if y is None:
+            return f, x0, nodes, frontier
+        x = prep["X"] @ y
+        if not qp.is_feasible(x):  # cannot happen by construction; never trust it blindly
+            raise RuntimeError("the compiled search returned a point that breaks a limit")
+        return f, x, nodes, frontier
+    return _search_python(qp, prep, best_f, x0, deadline)
+
+
+def _search_python(qp: HedgeQP, prep: dict, best_f: float, best_x, deadline: float):
+    """The plain search (reference for the compiled one; same order, bounds and results)."""
+    n, g = prep["n"], prep["g"]
+    X, R = prep["X"], prep["R"]
+    Rd = [float(v) for v in np.diag(R)]
+    R1 = [0.0] + [float(R[i - 1, i]) for i in range(1, n)]  # superdiagonal
+    z = [float(v) for v in prep["z"]]
+    sl = [float(v) for v in prep["slope"]]
+    aw = [float(v) for v in prep["absw"]]
+    pm = [float(v) for v in prep["psimin"]]
+    lo = [int(v) for v in prep["lo"]]
+    hi = [int(v) for v in prep["hi"]]
+    Mp, u, off, fz = prep["Mp"], prep["u"], prep["off"], prep["fz"]
+    g2 = [float(v) for v in prep["g2"]]
+    delta = np.zeros(n)
+    xs = np.zeros(n)
+    nodes = [0]
+    state = {"f": best_f, "x": best_x}
+    Gp = prep["G"]
+    h = [float(v) for v in prep["h"]]
+    rows_of = [[(r, float(Gp[r, i]), float(prep["rest"][i, r])) for r in np.flatnonzero(Gp[:, i])]
+               for i in range(n)]
+    gs = [0.0] * g
+    has_m = prep["has_m"]
+    mg = [float(v) for v in prep["mg"]]
+    mrest = [float(v) for v in prep["mrest"]]
+    budget, mtol = prep["budget"], prep["mtol"]
+    floor, ceil, inf = math.floor, math.ceil, math.inf
+    W, D, capsep = prep["W"], prep["D"], prep["capsep"]
+
+    def below(k, c):
         """Separable bound Σ_l D_k,l (c_l − round c_l)² on the free levels 0 … k−1."""
         dd = c - np.rint(c)
-        return float(Dl[k] @ (dd * dd))
+        return float(D[k, :k] @ (dd * dd))
 
     def unexplored(i, partial, cv, left, right, L, U, rd, tz, si, wi, cz):
         """Lower bound on the subtrees of level i's values not yet entered (left…L, right…U)."""
@@ -209,16 +207,19 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
                 p = partial + phi(v)
                 if p >= low:
                     break
-                p += sep_bound(i, cv[:i] + Wl[i] * (v - cv[i]))
+                p += below(i, cv[:i] + W[i, :i] * (v - cv[i]))
                 if p < low:
                     low = p
         return low
 
+    def centre(i, pcv, py):
+        """Free centre of levels 0 … i once level i + 1 is fixed at ``py``."""
+        return pcv[:i + 1] + W[i + 1, :i + 1] * (py - pcv[i + 1])
+
     def visit(i, partial, ms, qa, t, pcv, py):
         nodes[0] += 1
         if not nodes[0] & 1023 and time.perf_counter() > deadline:
-            raise _Stop(partial + (0.0 if pcv is None else sep_bound(
-                i + 1, pcv[:i + 1] + Wl[i + 1] * (py - pcv[i + 1]))))
+            raise _Stop(partial + (0.0 if pcv is None else below(i + 1, centre(i, pcv, py))))
         # range of x_i that can still meet every row and the margin budget
         L, U = lo[i], hi[i]
         rows = rows_of[i]
@@ -282,8 +283,8 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
         if pcv is not None:
             # free centre of levels 0 … i once level i + 1 is fixed at py, and the separable
             # integrality bound Σ_l D_l (c_l − round c_l)² ≤ (y − c)ᵀQ(y − c) of those levels
-            cv = pcv[:i + 1] + Wl[i + 1] * (py - pcv[i + 1])
-            if partial + capsep[i + 1] >= best and partial + sep_bound(i + 1, cv) >= best:
+            cv = centre(i, pcv, py)
+            if partial + capsep[i + 1] >= best and partial + below(i + 1, cv) >= best:
                 return
         if i == 0:
             # true f is the convex quadratic fz + qa + (rd v + tz)² + g2_0 (v − z_0) in y_0:
@@ -321,6 +322,7 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
         else:
             pr = inf
         cur, pc = s, ps
+        pass_cv = cv is not None and i > 2
         while True:
             v = partial + pc
             if v >= state["f"]:
@@ -334,7 +336,7 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
             q = rd * cur + tz
             try:
                 visit(i - 1, v, ms + mi * abs(cur), qa + q * q + g2i * dc, tc,
-                      cv if i > 2 else None, cur)
+                      cv if pass_cv else None, cur)
             except _Stop as stop:  # add the bound of this level's unexplored values
                 stop.partial = min(stop.partial, unexplored(
                     i, partial, cv, left, right, L, U, rd, tz, si, wi, cz))
@@ -363,9 +365,9 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float):
     frontier = None
     try:
         top = None
-        if sep is not None:  # the root's free centre is z; a virtual level n fixed at z_n = 0
-            top = np.append(np.asarray(root.z, float), 0.0)
-        visit(n - 1, root.K, 0.0, 0.0, 0.0, top, 0.0)
+        if W is not None:  # the root's free centre is z; a virtual level n fixed at z_n = 0
+            top = np.append(prep["z"], 0.0)
+        visit(n - 1, prep["K"], 0.0, 0.0, 0.0, top, 0.0)
     except _Stop as stop:
         frontier = stop.partial
     return state["f"], state["x"], nodes[0], frontier

@@ -1,0 +1,103 @@
+"""The compiled level search against its plain-Python twin (same arrays, order and answers)."""
+
+from __future__ import annotations
+
+import shutil
+import sysconfig
+import time
+
+import numpy as np
+import pytest
+
+from optimizer.formulation import solve_relaxed
+from optimizer.integer_bounds import polish, prepare_root
+from optimizer.integer_lattice import lattice_root
+from optimizer.integer_native import native_search
+from optimizer.integer_search import enumerate_levels
+from optimizer.rounding import best_rounded, integer_box
+from tests.test_integer import brute_force, curve_like_book, random_book
+
+needs_native = pytest.mark.skipif(not native_search(), reason="no compiled search here")
+
+
+def _roots(qp):
+    """The search roots of a book: contract-count levels, and LLL levels where they apply."""
+    rel = solve_relaxed(qp)
+    lo, hi = integer_box(qp)
+    if rel.x is None or np.any(lo > hi):
+        return None, []
+    inc = best_rounded(qp, rel.x)
+    if inc is None:
+        return None, []
+    root = prepare_root(qp, rel.x, rel.dual_rows, rel.dual_margin, lo, hi, qp.value(inc))
+    if root is None:
+        return None, []
+    roots = [root]
+    kkt = polish(qp, rel)
+    if kkt is not None and qp.margin_budget is None:
+        box_lo, box_hi = np.empty(qp.n), np.empty(qp.n)
+        box_lo[root.perm], box_hi[root.perm] = root.lo, root.hi
+        lroot = lattice_root(qp, kkt, box_lo, box_hi, qp.value(inc))
+        if lroot is not None:
+            roots.append(lroot)
+    return inc, roots
+
+
+def test_a_machine_with_a_c_compiler_gets_the_compiled_search():
+    cc = (sysconfig.get_config_var("CC") or "cc").split()[0]
+    if shutil.which(cc) is None:
+        pytest.skip("no C compiler on this machine")
+    assert native_search()
+
+
+def test_switch_forces_the_python_search(monkeypatch):
+    monkeypatch.setenv("BASISWISE_SEARCH", "python")
+    assert not native_search()
+
+
+@needs_native
+def test_compiled_search_equals_python_search_node_for_node():
+    # the same book, the same levels: both engines must visit the same nodes and find the same
+    # optimum; the reference for the optimum itself is exhaustive enumeration
+    rng = np.random.default_rng(4242)
+    compared = 0
+    for k in range(70):
+        small = k % 3 != 0
+        qp = random_book(rng) if small else curve_like_book(rng, 6)
+        inc, roots = _roots(qp)
+        # source: exhaustive enumeration of every integer point, exact by construction
+        best = brute_force(qp)[0] if small and roots else None
+        for root in roots:
+            f0 = qp.value(inc)
+            py = enumerate_levels(qp, root, f0, inc, time.perf_counter() + 60, engine="python")
+            nat = enumerate_levels(qp, root, f0, inc, time.perf_counter() + 60, engine="native")
+            assert py[3] is None and nat[3] is None  # both finished
+            assert nat[2] == py[2]
+            assert nat[0] == pytest.approx(py[0], abs=1e-12)
+            if best is not None:
+                assert nat[0] == pytest.approx(best, abs=1e-9)
+            compared += 1
+    assert compared >= 80
+
+
+@needs_native
+def test_compiled_search_stops_with_the_same_true_bound():
+    # deadline already passed: both stop at node 1024 and report the same frontier bound
+    rng = np.random.default_rng(77)
+    stopped = 0
+    for _ in range(8):
+        qp = curve_like_book(rng, 12)
+        inc, roots = _roots(qp)
+        for root in roots:
+            f0 = qp.value(inc)
+            py = enumerate_levels(qp, root, f0, inc, 0.0, engine="python")
+            nat = enumerate_levels(qp, root, f0, inc, 0.0, engine="native")
+            assert nat[2] == py[2]
+            if py[3] is None:
+                assert nat[3] is None
+                continue
+            stopped += 1
+            assert py[2] == 1024
+            assert nat[3] == pytest.approx(py[3], rel=1e-9, abs=1e-12)
+            assert nat[0] == pytest.approx(py[0], abs=1e-12)
+    assert stopped >= 4
