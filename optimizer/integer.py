@@ -55,6 +55,7 @@ import numpy as np
 from .formulation import solve_relaxed, solve_scip
 from .integer_bounds import lagrangian_terms, polish, prepare_root, quick_relaxation
 from .integer_lattice import lattice_root
+from .integer_native import native_search
 from .integer_search import enumerate_levels
 from .qp import HedgeQP
 from .rounding import best_rounded, integer_box, naive_round
@@ -64,6 +65,7 @@ __all__ = ["IntegerResult", "solve_exact"]
 _TOL = 1e-9
 _ROUNDOFF = 1e-12  # allowance for floating-point error in the partial sums
 _LATTICE_MIN_N = 3  # from this size the lattice phase takes over when the first is slow
+_SMALL_N = 12  # up to this size, with finite boxes, the search starts without repaired rounding
 _QUICK_MAX_N = 24  # up to this size the relaxation is first tried by an active-set solve
 _PHASE1_SHARE, _PHASE1_MIN = 0.01, 0.1  # time of the first phase: share of the limit, seconds
 
@@ -183,7 +185,13 @@ def solve_exact(qp: HedgeQP, *, time_limit: float = 30.0, relaxed=None, tol: flo
             lam, mu = None, None
     if lam is not None and len(lam) != qp.G.shape[0]:
         lam = None
-    inc = best_rounded(qp, z)
+    if qp.n <= _SMALL_N and native_search() and np.all(np.isfinite(lo)) and np.all(np.isfinite(hi)):
+        # small finite books: the compiled search finds the optimum in microseconds, so the
+        # repaired rounding (about 0.3 ms) is not worth its time; the search starts from naive
+        # rounding when that is feasible, else from its own first leaf
+        inc = None
+    else:
+        inc = best_rounded(qp, z)
     cand = naive_round(qp, z)
     if np.all(np.isfinite(cand)) and qp.is_feasible(cand) and (
             inc is None or qp.value(cand) < qp.value(inc)):

@@ -125,11 +125,11 @@ def _inverse_diag(M: np.ndarray) -> np.ndarray | None:
     Rinv, info = dtrtri(np.ascontiguousarray(R[:n, :n]))
     if info != 0 or not np.all(np.isfinite(Rinv)):
         return None
-    # 2-norm condition number of R, from its singular values (R is n × n)
-    sv = np.linalg.svd(R, compute_uv=False)
-    if sv[-1] <= 0 or sv[0] / sv[-1] > _COND_MAX:
+    diag = np.einsum("ij,ij->i", Rinv, Rinv)
+    # cond₂(R) ≤ ‖R‖_F ‖R⁻¹‖_F: a cheap upper bound on the condition number (conservative)
+    if float(np.sqrt(np.sum(R * R) * diag.sum())) > _COND_MAX:
         return None
-    return np.einsum("ij,ij->i", Rinv, Rinv)
+    return diag
 
 
 def finite_box(qp: HedgeQP, lo: np.ndarray, hi: np.ndarray, centre: np.ndarray, radius2: float
@@ -167,24 +167,27 @@ def search_order(A: np.ndarray, lo: np.ndarray, hi: np.ndarray, radius2: float) 
     C = (C + C.T) / 2
     width = hi - lo
     r = radius2 if np.isfinite(radius2) and radius2 > 0 else 1.0
-    left = list(range(n))
-    out: list[int] = []
-    for _ in range(n):
-        var = np.maximum(np.diag(C)[left], 0.0)
-        cands = np.minimum(width[left] + 1, 2 * np.sqrt(r * var) + 1)
-        k = int(np.argmin(cands + 1e-9 * var))  # tie: smaller conditional variance
-        j = left.pop(k)
-        out.append(j)
-        cj = C[:, j].copy()
-        if C[j, j] > 0:
-            C = C - np.outer(cj, cj) / C[j, j]
-    return np.array(out, dtype=int)
+    placed = np.zeros(n, dtype=bool)
+    out = np.empty(n, dtype=int)
+    for step in range(n):
+        var = np.maximum(C.diagonal(), 0.0)
+        cands = np.minimum(width + 1, 2 * np.sqrt(r * var) + 1) + 1e-9 * var  # tie: smaller var
+        cands[placed] = np.inf
+        j = int(np.argmin(cands))  # first of equals, as in index order
+        placed[j] = True
+        out[step] = j
+        cjj = C[j, j]
+        if cjj > 0:
+            cj = C[:, j].copy()
+            C -= np.outer(cj, cj / cjj)
+    return out
 
 
 def prepare_root(qp: HedgeQP, z: np.ndarray, lam, mu, lo: np.ndarray, hi: np.ndarray,
                  f_inc: float) -> RootData | None:
     """Bound, tightened finite boxes, order and factor; ``None`` if a box stays unlimited."""
-    K, *_ = lagrangian_terms(qp, z, lam, mu, lo, hi)
+    lo0, hi0 = lo, hi
+    K, slope, absw, psimin = lagrangian_terms(qp, z, lam, mu, lo, hi)
     if np.isfinite(K) and np.isfinite(f_inc):
         lo, hi = finite_box(qp, lo, hi, z, f_inc - K)
     elif np.isfinite(f_inc):
@@ -196,11 +199,15 @@ def prepare_root(qp: HedgeQP, z: np.ndarray, lam, mu, lo: np.ndarray, hi: np.nda
         lo, hi = finite_box(qp, lo, hi, z, np.inf)
     if not (np.all(np.isfinite(lo)) and np.all(np.isfinite(hi))):
         return None
-    K, slope, absw, psimin = lagrangian_terms(qp, z, lam, mu, lo, hi)
+    if not (np.array_equal(lo, lo0) and np.array_equal(hi, hi0)):  # else the terms stand
+        K, slope, absw, psimin = lagrangian_terms(qp, z, lam, mu, lo, hi)
+    n = qp.n
+    if K >= f_inc:  # the incumbent is proven optimal: no search, so no order or factor
+        return RootData(perm=np.arange(n), R=np.zeros((n, n)), z=np.asarray(z, float),
+                        slope=slope, absw=absw, psimin=psimin, lo=lo, hi=hi, K=float(K))
     radius2 = f_inc - K if np.isfinite(f_inc) else np.inf
     top_first = search_order(qp.A, lo, hi, radius2)
     perm = top_first[::-1].copy()  # level 0 is enumerated last
-    n = qp.n
     Rk = np.linalg.qr(qp.M[:, perm], mode="r")
     R = np.zeros((n, n))
     R[: Rk.shape[0]] = Rk
@@ -250,8 +257,12 @@ def polish(qp: HedgeQP, relaxed, act_tol: float = 1e-6, max_iter: int | None = N
         solved = list(active)  # the set that x and nu belong to (the cap may stop mid-change)
         E = C[active]
         p = len(active)
-        Kkt = np.block([[A2, E.T], [E, np.zeros((p, p))]])
-        sol = np.linalg.lstsq(Kkt, np.concatenate([b2, d[active]]), rcond=None)[0]
+        Kkt = np.zeros((n + p, n + p))
+        Kkt[:n, :n] = A2
+        Kkt[:n, n:] = E.T
+        Kkt[n:, :n] = E
+        rhs = np.concatenate([b2, d[active]])
+        sol = _kkt_solve(Kkt, rhs)
         x, nu = sol[:n], sol[n:]
         viol = C @ x - d
         viol[active] = -np.inf
@@ -272,6 +283,21 @@ def polish(qp: HedgeQP, relaxed, act_tol: float = 1e-6, max_iter: int | None = N
     dual_lo[fin_lo] = mult[len(fin_hi): len(fin_hi) + len(fin_lo)]
     return KKTPoint(x=x, dual_lo=dual_lo, dual_hi=dual_hi, dual_rows=mult[len(d) - g:],
                     dual_margin=None)
+
+
+def _kkt_solve(K: np.ndarray, rhs: np.ndarray) -> np.ndarray:
+    """``K⁻¹ rhs`` by LU, or by least squares when ``K`` is singular (degenerate active sets).
+
+    Only the tightness of the bounds depends on the answer (the callers check KKT conditions or
+    use the point in a bound that holds for any point).
+    """
+    try:
+        sol = np.linalg.solve(K, rhs)  # LU with partial pivoting: backward stable
+        if np.isfinite(sol).all():
+            return sol
+    except np.linalg.LinAlgError:
+        pass
+    return np.linalg.lstsq(K, rhs, rcond=None)[0]
 
 
 @dataclass(frozen=True)
@@ -295,7 +321,12 @@ def quick_relaxation(qp: HedgeQP, tol: float = 1e-9) -> KKTPoint | None:
     lo, hi = np.asarray(qp.lo, float), np.asarray(qp.hi, float)
     if np.any(lo > hi):
         return None
-    x0 = np.linalg.lstsq(qp.M, -qp.u, rcond=None)[0]
+    try:  # free least-squares optimum from the normal equations, else by lstsq
+        x0 = np.linalg.solve(qp.A, -qp.b)
+        if not np.isfinite(x0).all():
+            raise np.linalg.LinAlgError
+    except np.linalg.LinAlgError:
+        x0 = np.linalg.lstsq(qp.M, -qp.u, rcond=None)[0]
     x0 = np.minimum(np.maximum(x0, lo), hi)
     kkt = polish(qp, _Start(x=x0), act_tol=1e-12)
     if kkt is None:

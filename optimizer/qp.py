@@ -22,6 +22,7 @@ Limits: ``lo ≤ n ≤ hi`` (position limits, liquidity and hedge-only signs alr
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 
@@ -79,14 +80,14 @@ class HedgeQP:
         """Number of instruments."""
         return self.M.shape[1]
 
-    @property
+    @cached_property
     def A(self) -> np.ndarray:
-        """Quadratic term ``MᵀM`` of ``f(n) = nᵀAn + 2bᵀn + c``."""
+        """Quadratic term ``MᵀM`` of ``f(n) = nᵀAn + 2bᵀn + c`` (computed once per problem)."""
         return self.M.T @ self.M
 
-    @property
+    @cached_property
     def b(self) -> np.ndarray:
-        """Linear term ``Mᵀu``."""
+        """Linear term ``Mᵀu`` (computed once per problem)."""
         return self.M.T @ self.u
 
     @property
@@ -113,5 +114,13 @@ class HedgeQP:
         return out
 
     def is_feasible(self, x: np.ndarray, tol: float = 1e-7) -> bool:
-        """Whether positions ``x`` meet every limit."""
-        return not self.violations(x, tol)
+        """Whether positions ``x`` meet every limit (``not violations(x, tol)``, without names)."""
+        x = np.asarray(x, dtype=float)
+        if np.any(x < self.lo - tol) or np.any(x > self.hi + tol):
+            return False
+        if self.G.shape[0] and np.any(self.G @ x > self.h + tol):
+            return False
+        if self.margin_budget is not None and self.margin is not None:
+            if float(self.margin @ np.abs(x)) > self.margin_budget * (1 + tol) + tol:
+                return False
+        return True

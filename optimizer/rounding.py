@@ -69,6 +69,25 @@ def _violation(qp: HedgeQP, x: np.ndarray) -> float:
     return v
 
 
+def _move_violations(qp: HedgeQP, x: np.ndarray, steps: np.ndarray) -> np.ndarray:
+    """:func:`_violation` after each single move ``x_j → x_j + s`` at once; shape (len(steps), n).
+
+    Rows: ``Σ_r max((Gx − h)_r + s G_rj, 0)``; margin:
+    ``max(mᵀ|x| + m_j(|x_j + s| − |x_j|) − B, 0)``.
+    """
+    n = len(x)
+    v = np.zeros((len(steps), n))
+    if qp.G.shape[0]:
+        slack = qp.G @ x - qp.h
+        v += np.maximum(slack[None, :, None] + steps[:, None, None] * qp.G[None], 0.0).sum(axis=1)
+    if qp.margin_budget is not None and qp.margin is not None:
+        m = np.asarray(qp.margin, float)
+        used = float(m @ np.abs(x)) - float(qp.margin_budget)
+        change = m[None, :] * (np.abs(x[None, :] + steps[:, None]) - np.abs(x)[None, :])
+        v += np.maximum(used + change, 0.0)
+    return v
+
+
 def _sequential_floor_ceil(A: np.ndarray, b: np.ndarray, z: np.ndarray,
                            lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
     """Floor or ceiling per coordinate, given the earlier choices and ``z`` for the rest.
@@ -117,19 +136,32 @@ def _pair_move(qp: HedgeQP, A: np.ndarray, grad: np.ndarray, x: np.ndarray,
     flat = dv.ravel()
     m = min(tries, flat.size)
     top = np.argpartition(flat, m - 1)[:m]
-    for f in top[np.argsort(flat[top], kind="stable")]:
-        if not flat[f] < -1e-15:
-            break
-        c, rest = divmod(int(f), n * n)
-        j, k = divmod(rest, n)
-        s, t = float(sj[c, 0]), float(tk[c, 0])
-        x[j] += s
-        x[k] += t
-        if _violation(qp, x) <= _FEAS_TOL:
-            return True
-        x[j] -= s
-        x[k] -= t
-    return False
+    top = top[np.argsort(flat[top], kind="stable")]
+    top = top[flat[top] < -1e-15]  # improving pairs, best first
+    if not top.size:
+        return False
+    c, rest = np.divmod(top, n * n)
+    j, k = np.divmod(rest, n)
+    s, t = sj[c, 0], tk[c, 0]
+    # violation of every candidate at once (as _violation after the pair move)
+    v = np.zeros(len(top))
+    if qp.G.shape[0]:
+        slack = qp.G @ x - qp.h
+        v += np.maximum(slack[None, :] + s[:, None] * qp.G[:, j].T + t[:, None] * qp.G[:, k].T,
+                        0.0).sum(axis=1)
+    if qp.margin_budget is not None and qp.margin is not None:
+        m = np.asarray(qp.margin, float)
+        used = float(m @ np.abs(x)) - float(qp.margin_budget)
+        used = used + m[j] * (np.abs(x[j] + s) - np.abs(x[j])) + m[k] * (np.abs(x[k] + t)
+                                                                          - np.abs(x[k]))
+        v += np.maximum(used, 0.0)
+    ok = np.flatnonzero(v <= _FEAS_TOL)
+    if not ok.size:
+        return False
+    f = ok[0]
+    x[j[f]] += s[f]
+    x[k[f]] += t[f]
+    return True
 
 
 def best_rounded(qp: HedgeQP, x_relaxed: np.ndarray, *, max_moves: int | None = None
@@ -166,19 +198,18 @@ def best_rounded(qp: HedgeQP, x_relaxed: np.ndarray, *, max_moves: int | None = 
     count = 0
     while viol > _FEAS_TOL and count < cap:
         grad = A @ x + b
-        dv = _moves(A, grad, x, lo, hi)
-        best = (viol, np.inf, -1, 0)
-        for s_idx in range(2):
-            for j in np.flatnonzero(np.isfinite(dv[s_idx])):
-                x[j] += steps[s_idx]
-                v = _violation(qp, x)
-                x[j] -= steps[s_idx]
-                if (v, dv[s_idx, j]) < best[:2]:
-                    best = (v, dv[s_idx, j], j, s_idx)
-        if best[2] < 0:
+        dv = _moves(A, grad, x, lo, hi).ravel()
+        v = _move_violations(qp, x, steps).ravel()
+        # the move with the least violation, then the least variance added, in (step, j) order;
+        # only moves that do not add violation
+        ok = np.isfinite(dv) & (v <= viol)
+        if not ok.any():
             break
-        x[best[2]] += steps[best[3]]
-        viol = best[0]
+        cand = np.flatnonzero(ok)
+        pick = cand[np.lexsort((dv[cand], v[cand]))[0]]
+        s_idx, j = divmod(int(pick), n)
+        x[j] += steps[s_idx]
+        viol = float(v[pick])
         count += 1
     if viol > _FEAS_TOL or not qp.is_feasible(x):
         return None
@@ -189,15 +220,17 @@ def best_rounded(qp: HedgeQP, x_relaxed: np.ndarray, *, max_moves: int | None = 
         dv = _moves(A, grad, x, lo, hi)
         order = np.argsort(dv, axis=None)
         moved = False
-        for flat in order:
-            s_idx, j = divmod(int(flat), n)
-            if not dv[s_idx, j] < -1e-15:
-                break
-            x[j] += steps[s_idx]
-            if _violation(qp, x) <= _FEAS_TOL:
+        flat_dv = dv.ravel()[order]
+        # moves in order of the variance they remove (a prefix of the sorted list); the first
+        # that keeps every limit
+        improving = flat_dv < -1e-15
+        if improving.any():
+            keeps = _move_violations(qp, x, steps).ravel()[order] <= _FEAS_TOL
+            hit = np.flatnonzero(improving & keeps)
+            if hit.size:
+                s_idx, j = divmod(int(order[hit[0]]), n)
+                x[j] += steps[s_idx]
                 moved = True
-                break
-            x[j] -= steps[s_idx]
         if not moved:
             moved = _pair_move(qp, A, grad, x, lo, hi)
         if not moved:
