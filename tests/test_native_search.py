@@ -101,3 +101,19 @@ def test_compiled_search_stops_with_the_same_true_bound():
             assert nat[3] == pytest.approx(py[3], rel=1e-9, abs=1e-12)
             assert nat[0] == pytest.approx(py[0], abs=1e-12)
     assert stopped >= 4
+
+
+def test_bundled_source_compiles_into_a_fresh_cache(tmp_path, monkeypatch):
+    # the path a source checkout (or an install without the built extension) takes
+    from optimizer import integer_native
+
+    cc = (sysconfig.get_config_var("CC") or "cc").split()[0]
+    if shutil.which(cc) is None:
+        pytest.skip("no C compiler on this machine")
+    monkeypatch.setenv("BASISWISE_CACHE", str(tmp_path))
+    out = integer_native._compile()
+    assert out is not None and out.is_file() and out.parent == tmp_path
+    assert list(tmp_path.iterdir()) == [out]  # no temporary file left behind
+    import ctypes
+
+    assert hasattr(ctypes.CDLL(str(out)), "bw_enumerate")

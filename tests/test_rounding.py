@@ -5,10 +5,12 @@ from __future__ import annotations
 import itertools
 
 import numpy as np
+import pytest
 
 from optimizer.formulation import solve_relaxed
 from optimizer.qp import HedgeQP
 from optimizer.rounding import best_rounded, integer_box, naive_round
+from tests.test_integer import random_book
 
 
 def _book(rng, n=4):
@@ -59,3 +61,29 @@ def test_best_rounded_returns_none_when_no_point_exists():
     qp = HedgeQP(M=np.eye(2), u=np.array([0.6, 0.8]), lo=np.array([2.0, -1.0]),
                  hi=np.array([3.0, 1.0]), G=np.array([[1.0, 0.0]]), h=np.array([1.0]))
     assert best_rounded(qp, np.array([2.0, 0.0])) is None
+
+
+def test_all_move_violations_at_once_equal_one_at_a_time():
+    # the vectorised violations of every ±1 move against the plain loop over moves
+    from optimizer.rounding import _move_violations, _violation
+
+    rng = np.random.default_rng(31)
+    for _ in range(40):
+        qp = random_book(rng)
+        x = rng.integers(-3, 4, size=qp.n).astype(float)
+        steps = np.array([1.0, -1.0])
+        fast = _move_violations(qp, x, steps)
+        for s_idx, s in enumerate(steps):
+            for j in range(qp.n):
+                y = x.copy()
+                y[j] += s
+                assert fast[s_idx, j] == pytest.approx(_violation(qp, y), abs=1e-12)
+
+
+def test_is_feasible_agrees_with_the_named_violations():
+    rng = np.random.default_rng(32)
+    for _ in range(40):
+        qp = random_book(rng)
+        for _ in range(10):
+            x = rng.integers(-4, 5, size=qp.n).astype(float)
+            assert qp.is_feasible(x) == (not qp.violations(x))
