@@ -1,4 +1,4 @@
-"""Build of the compiled level search; everything else is declared in pyproject.toml."""
+"""Build of the compiled search and active-set solve; everything else is in pyproject.toml."""
 
 from setuptools import Extension, setup
 
@@ -6,7 +6,7 @@ setup(
     ext_modules=[
         Extension(
             "optimizer.native._levels",
-            sources=["optimizer/native/levels.c"],
+            sources=["optimizer/native/levels.c", "optimizer/native/active_set.c"],
             extra_compile_args=["-O2"],
             optional=True,  # without a C compiler the pure-Python search runs instead
         )

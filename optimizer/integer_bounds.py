@@ -46,6 +46,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.linalg.lapack import dtrtri
 
+from .integer_native import native_search, run_active_set
 from .qp import HedgeQP
 
 __all__ = ["RootData", "lagrangian_terms", "finite_box", "search_order", "prepare_root", "polish",
@@ -252,8 +253,13 @@ def polish(qp: HedgeQP, relaxed, act_tol: float = 1e-6, max_iter: int | None = N
     scale = 1.0 + np.abs(d)
     active = list(np.flatnonzero(C @ z >= d - act_tol * scale))
     A2, b2 = 2 * qp.A, -2 * qp.b
+    iters = max_iter if max_iter is not None else 3 * n + 10
+    if native_search():  # the compiled twin of the loop below
+        done = run_active_set(A2, b2, C, d, scale, active, iters)
+        if done is not None:
+            return _kkt_point(done[0], done[1], fin_hi, fin_lo, n, g)
     x, nu, solved = z, np.zeros(0), []
-    for _ in range(max_iter if max_iter is not None else 3 * n + 10):
+    for _ in range(iters):
         solved = list(active)  # the set that x and nu belong to (the cap may stop mid-change)
         E = C[active]
         p = len(active)
@@ -274,14 +280,19 @@ def polish(qp: HedgeQP, relaxed, act_tol: float = 1e-6, max_iter: int | None = N
             active.pop(int(np.argmin(nu)))
             continue
         break
-    if not np.all(np.isfinite(x)):
-        return None
     mult = np.zeros(len(d))
     mult[solved] = np.maximum(nu, 0.0)
+    return _kkt_point(x, mult, fin_hi, fin_lo, n, g)
+
+
+def _kkt_point(x, mult, fin_hi, fin_lo, n, g) -> KKTPoint | None:
+    """Split the multipliers of the rows ``[x ≤ hi; −x ≤ −lo; Gx ≤ h]`` into a KKTPoint."""
+    if not np.all(np.isfinite(x)):
+        return None
     dual_hi, dual_lo = np.zeros(n), np.zeros(n)
     dual_hi[fin_hi] = mult[: len(fin_hi)]
     dual_lo[fin_lo] = mult[len(fin_hi): len(fin_hi) + len(fin_lo)]
-    return KKTPoint(x=x, dual_lo=dual_lo, dual_hi=dual_hi, dual_rows=mult[len(d) - g:],
+    return KKTPoint(x=x, dual_lo=dual_lo, dual_hi=dual_hi, dual_rows=mult[len(mult) - g:],
                     dual_margin=None)
 
 

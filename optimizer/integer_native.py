@@ -1,8 +1,9 @@
-"""The compiled level search (``optimizer/native/levels.c``): loading it and calling it.
+"""The compiled parts of the exact solver (``optimizer/native/*.c``): loading and calling them.
 
-The C file is the twin of the pure-Python search in :mod:`optimizer.integer_search` — the same
-levels, bounds and visiting order — and runs the desk-scale searches some 50–100 times faster.
-It is found, in order:
+``levels.c`` is the twin of the pure-Python search in :mod:`optimizer.integer_search` — the same
+levels, bounds and visiting order — and runs the desk-scale searches some 50–100 times faster;
+``active_set.c`` is the twin of the active-set loop of :func:`optimizer.integer_bounds.polish`.
+They are found, in order:
 
 1. as the extension module ``optimizer.native._levels`` that ``pip install`` builds;
 2. compiled on first use from the bundled C source with the machine's C compiler into a cache
@@ -26,9 +27,10 @@ from pathlib import Path
 
 import numpy as np
 
-__all__ = ["native_search", "run_native"]
+__all__ = ["native_search", "run_native", "run_active_set"]
 
-_SOURCE = Path(__file__).resolve().parent / "native" / "levels.c"
+_SOURCES = [Path(__file__).resolve().parent / "native" / name
+            for name in ("levels.c", "active_set.c")]
 _lib: ctypes.CDLL | None = None
 _tried = False
 
@@ -60,13 +62,13 @@ def _cache_dir() -> Path:
 
 def _compile() -> Path | None:
     """Compile the bundled source into the cache folder (atomic rename); ``None`` on failure."""
-    if not _SOURCE.is_file():
+    if not all(src.is_file() for src in _SOURCES):
         return None
     cc = os.environ.get("CC") or sysconfig.get_config_var("CC") or "cc"
     cc = cc.split()[0]
     if shutil.which(cc) is None:
         return None
-    src = _SOURCE.read_bytes()
+    src = b"".join(path.read_bytes() for path in _SOURCES)
     tag = hashlib.sha256(src + sys.version.encode()).hexdigest()[:16]
     out = _cache_dir() / f"levels-{tag}{sysconfig.get_config_var('EXT_SUFFIX') or '.so'}"
     if out.is_file():
@@ -76,7 +78,7 @@ def _compile() -> Path | None:
         fd, tmp = tempfile.mkstemp(suffix=".so", dir=out.parent)
         os.close(fd)
         cmd = [cc, "-O2", "-fPIC", "-shared", f"-I{sysconfig.get_paths()['include']}",
-               str(_SOURCE), "-o", tmp, "-lm"]
+               *map(str, _SOURCES), "-o", tmp, "-lm"]
         if sys.platform == "darwin":
             cmd[1:1] = ["-undefined", "dynamic_lookup"]
         done = subprocess.run(cmd, capture_output=True, timeout=120)
@@ -108,6 +110,9 @@ def _load() -> ctypes.CDLL | None:
         lib = ctypes.CDLL(path)
         lib.bw_enumerate.argtypes = [ctypes.POINTER(_Problem)]
         lib.bw_enumerate.restype = ctypes.c_int
+        vp, ci = ctypes.c_void_p, ctypes.c_int
+        lib.bw_active_set.argtypes = [ci, ci, vp, vp, vp, vp, vp, vp, vp, ci, vp, vp]
+        lib.bw_active_set.restype = ci
     except (OSError, AttributeError):
         return None
     _lib = lib
@@ -171,3 +176,29 @@ def run_native(prep: dict, best_f: float, time_limit: float):
         raise MemoryError("the compiled search could not allocate its work space")
     frontier = float(p.frontier) if p.stopped else None
     return float(p.best_f), (best_y if p.improved else None), int(p.nodes), frontier
+
+
+def run_active_set(A2: np.ndarray, b2: np.ndarray, C: np.ndarray, d: np.ndarray,
+                   scale: np.ndarray, active: list[int], max_iter: int):
+    """The compiled active-set loop of :func:`optimizer.integer_bounds.polish`.
+
+    Returns ``(x, mult)`` (multipliers per row of ``C``, negative ones set to 0), or ``None``
+    when a working set's system is singular (the caller then runs the numpy loop).
+    """
+    lib = _load()
+    if lib is None:
+        raise RuntimeError("the compiled active-set solve is not available")
+    n, m = A2.shape[0], C.shape[0]
+    arrs = [_d(A2), _d(b2), _d(C.reshape(m, n)) if m else np.zeros(1), _d(d) if m else np.zeros(1),
+            _d(scale) if m else np.zeros(1)]
+    act = np.zeros(max(m, 1), dtype=np.intc)
+    act[: len(active)] = active
+    nact = ctypes.c_int(len(active))
+    x, mult = np.zeros(n), np.zeros(max(m, 1))
+    rc = lib.bw_active_set(n, m, *(a.ctypes.data for a in arrs), act.ctypes.data,
+                           ctypes.addressof(nact), int(max_iter), x.ctypes.data, mult.ctypes.data)
+    if rc == 1:
+        raise MemoryError("the compiled active-set solve could not allocate its work space")
+    if rc != 0:
+        return None
+    return x, mult[:m]

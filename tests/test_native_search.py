@@ -117,3 +117,30 @@ def test_bundled_source_compiles_into_a_fresh_cache(tmp_path, monkeypatch):
     import ctypes
 
     assert hasattr(ctypes.CDLL(str(out)), "bw_enumerate")
+
+
+@needs_native
+def test_compiled_active_set_equals_the_numpy_loop(monkeypatch):
+    # polish (and quick_relaxation) on the same books with both engines: same point, same
+    # multipliers; the KKT conditions themselves are checked in test_integer
+    from optimizer.integer_bounds import quick_relaxation
+
+    rng = np.random.default_rng(5150)
+    compared = 0
+    for k in range(60):
+        qp = random_book(rng) if k % 2 else curve_like_book(rng, 8)
+        if qp.margin_budget is not None:
+            continue
+        nat = quick_relaxation(qp)
+        with monkeypatch.context() as mp:
+            mp.setenv("BASISWISE_SEARCH", "python")
+            ref = quick_relaxation(qp)
+        assert (nat is None) == (ref is None)
+        if ref is None:
+            continue
+        np.testing.assert_allclose(nat.x, ref.x, rtol=1e-9, atol=1e-9)
+        np.testing.assert_allclose(nat.dual_rows, ref.dual_rows, rtol=1e-7, atol=1e-9)
+        np.testing.assert_allclose(nat.dual_hi - nat.dual_lo, ref.dual_hi - ref.dual_lo,
+                                   rtol=1e-7, atol=1e-9)
+        compared += 1
+    assert compared >= 30
