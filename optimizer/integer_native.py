@@ -23,6 +23,7 @@ import subprocess
 import sys
 import sysconfig
 import tempfile
+import threading
 from pathlib import Path
 
 import numpy as np
@@ -31,7 +32,9 @@ __all__ = ["native_search", "run_native", "run_active_set"]
 
 _SOURCES = [Path(__file__).resolve().parent / "native" / name
             for name in ("levels.c", "active_set.c")]
+_DIRECT_MAX_N = 12  # smaller searches end within milliseconds: called directly, no helper thread
 _lib: ctypes.CDLL | None = None
+last_interrupt: tuple[bool, int] | None = None  # (stopped, nodes) of the last Ctrl-C'd search
 _tried = False
 
 _P = ctypes.c_void_p  # pointers are passed as addresses (faster than data_as for ~25 arrays)
@@ -51,7 +54,7 @@ class _Problem(ctypes.Structure):
         ("K", ctypes.c_double), ("best_f", ctypes.c_double), ("best_y", _P),
         ("improved", ctypes.c_int), ("time_limit", ctypes.c_double),
         ("nodes", ctypes.c_longlong), ("stopped", ctypes.c_int),
-        ("frontier", ctypes.c_double),
+        ("frontier", ctypes.c_double), ("cancel", ctypes.c_void_p),
     ]
 
 
@@ -130,6 +133,34 @@ def _d(a) -> np.ndarray:
     return np.ascontiguousarray(a, dtype=np.float64)
 
 
+def _interruptible(lib, p: _Problem, cancel: ctypes.c_int) -> int:
+    """Run the search in a helper thread so that Ctrl-C in the main thread can stop it.
+
+    ctypes releases the GIL during the call, so the main thread keeps waiting in short joins; on
+    KeyboardInterrupt it sets ``cancel`` (the search stops within 1,024 nodes), waits for the
+    search to end and re-raises.
+    """
+    global last_interrupt
+    out = []
+    worker = threading.Thread(target=lambda: out.append(lib.bw_enumerate(ctypes.byref(p))),
+                              name="basiswise-search", daemon=True)
+    worker.start()
+    try:
+        _wait(worker)
+    except KeyboardInterrupt:
+        cancel.value = 1
+        worker.join()
+        last_interrupt = (bool(p.stopped), int(p.nodes))
+        raise
+    return out[0] if out else 1
+
+
+def _wait(worker: threading.Thread) -> None:
+    """Wait for the search thread in short joins, so that KeyboardInterrupt is seen."""
+    while worker.is_alive():
+        worker.join(0.05)
+
+
 def run_native(prep: dict, best_f: float, time_limit: float):
     """Run the compiled search on prepared arrays (see :func:`integer_search.prepare_levels`).
 
@@ -172,7 +203,13 @@ def run_native(prep: dict, best_f: float, time_limit: float):
     p.best_f = float(best_f)
     p.best_y = best_y.ctypes.data
     p.time_limit = max(float(time_limit), 0.0)
-    if lib.bw_enumerate(ctypes.byref(p)) != 0:
+    cancel = ctypes.c_int(0)
+    p.cancel = ctypes.addressof(cancel)
+    if n <= _DIRECT_MAX_N or threading.current_thread() is not threading.main_thread():
+        rc = lib.bw_enumerate(ctypes.byref(p))
+    else:
+        rc = _interruptible(lib, p, cancel)
+    if rc != 0:
         raise MemoryError("the compiled search could not allocate its work space")
     frontier = float(p.frontier) if p.stopped else None
     return float(p.best_f), (best_y if p.improved else None), int(p.nodes), frontier

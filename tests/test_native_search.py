@@ -144,3 +144,29 @@ def test_compiled_active_set_equals_the_numpy_loop(monkeypatch):
                                    rtol=1e-7, atol=1e-9)
         compared += 1
     assert compared >= 30
+
+
+@needs_native
+def test_ctrl_c_stops_a_long_compiled_search(monkeypatch):
+    # Ctrl-C arrives while the main thread waits for the search thread: the search is told to
+    # stop, stops at its next clock check (within 1,024 nodes) and the interrupt goes on
+    from optimizer import integer_native
+
+    rng = np.random.default_rng(2718)
+    qp = curve_like_book(rng, 16)
+    inc, roots = _roots(qp)
+    calls = []
+
+    def interrupted_wait(worker):
+        calls.append(worker.name)
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(integer_native, "_wait", interrupted_wait)
+    integer_native.last_interrupt = None
+    with pytest.raises(KeyboardInterrupt):
+        enumerate_levels(qp, roots[0], qp.value(inc), inc, time.perf_counter() + 600.0,
+                         engine="native")
+    assert calls == ["basiswise-search"]
+    stopped, nodes = integer_native.last_interrupt
+    assert stopped
+    assert nodes < 10**8  # stopped at a clock check, far from the 600 s limit (~10^10 nodes)

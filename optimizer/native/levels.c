@@ -49,6 +49,7 @@ typedef struct {
     long long nodes;       /* out */
     int stopped;           /* out */
     double frontier;       /* out: lower bound on every unexplored point when stopped */
+    volatile int *cancel;  /* when set non-zero by another thread, stop as at the time limit */
 } BwProblem;
 
 typedef struct {
@@ -133,7 +134,7 @@ static void visit(Ctx *x, int i, double partial, double ms, double qa, double t,
     BwProblem *p = x->p;
     int n = p->n;
     p->nodes++;
-    if (!(p->nodes & 1023) && now_minus(&x->deadline) > 0.0) {
+    if (!(p->nodes & 1023) && (now_minus(&x->deadline) > 0.0 || (p->cancel && *p->cancel))) {
         double b = partial;
         if (has_cv) {
             child_centre(x, i, py);
