@@ -116,6 +116,9 @@ def _load() -> ctypes.CDLL | None:
         vp, ci = ctypes.c_void_p, ctypes.c_int
         lib.bw_active_set.argtypes = [ci, ci, vp, vp, vp, vp, vp, vp, vp, ci, vp, vp]
         lib.bw_active_set.restype = ci
+        lib.bw_problem_size.restype = ci
+        if lib.bw_problem_size() != ctypes.sizeof(_Problem):  # the two layouts drifted apart
+            return None
     except (OSError, AttributeError):
         return None
     _lib = lib

@@ -171,3 +171,12 @@ def test_ctrl_c_stops_a_long_compiled_search(monkeypatch):
     stopped, nodes = integer_native.last_interrupt
     assert stopped
     assert nodes < 10**8  # stopped at a clock check, far from the 600 s limit (~10^10 nodes)
+
+
+@needs_native
+def test_python_and_c_agree_on_the_problem_layout():
+    import ctypes
+
+    from optimizer import integer_native
+
+    assert integer_native._load().bw_problem_size() == ctypes.sizeof(integer_native._Problem)

@@ -278,6 +278,9 @@ static void visit(Ctx *x, int i, double partial, double ms, double qa, double t,
     }
 }
 
+/* Size of the problem struct, so that the Python side can check that its layout matches. */
+int bw_problem_size(void) { return (int)sizeof(BwProblem); }
+
 /* Returns 0 on success, 1 when out of memory. */
 int bw_enumerate(BwProblem *p) {
     int n = p->n, g = p->g;
