@@ -23,16 +23,18 @@ KKT solve (:func:`optimizer.integer_bounds.polish`), whose multipliers give the 
 (the solver's own objective can be off by ~1e-7 on curve books); books of up to 24 instruments
 without a margin budget, when no relaxation is passed in, first try that active-set solve alone
 (:func:`optimizer.integer_bounds.quick_relaxation`, accepted only when its KKT conditions check) and
-skip the conic solver; (2) an incumbent from :func:`optimizer.rounding.best_rounded`, or the
-caller's ``start`` when it is feasible and better; (3) enumeration over the contract counts
-(:mod:`optimizer.integer_search`, compiled when available); (4) for books of 3 or more instruments
-without a margin budget that are not finished after 1 % of the time limit (at least 0.1 s), the same
-enumeration in LLL-reduced coordinates (:mod:`optimizer.integer_lattice`), which copes with months
-that move together. When time runs out the bound reported is the best of the root bound and the
-frontier bounds of the phases (each the smallest partial sum of its unexplored subtrees, capped by
-the incumbent). Problems whose boxes cannot be made finite go to SCIP
-(:func:`optimizer.formulation.solve_scip`, warm-started); its answer is then reported against the
-Lagrangian bound only, so it is never called certified unless that bound meets it.
+skip the conic solver; (2) an incumbent from :func:`optimizer.rounding.best_rounded` (books of up to
+12 instruments with finite boxes, when the search is compiled: naive rounding if feasible, else the
+search's own first leaf), or the caller's ``start`` when it is feasible and better; (3) enumeration
+over the contract counts (:mod:`optimizer.integer_search`, compiled when available); (4) for books
+of 3 or more instruments without a margin budget that are not finished after 1 % of the time limit
+(at least 0.1 s), the same enumeration in LLL-reduced coordinates
+(:mod:`optimizer.integer_lattice`), which copes with months that move together. When time runs out
+the bound reported is the best of the root bound and the frontier bounds of the phases (each the
+smallest partial sum of its unexplored subtrees, capped by the incumbent). Problems whose boxes
+cannot be made finite go to SCIP (:func:`optimizer.formulation.solve_scip`, warm-started); its
+answer is then reported against the Lagrangian bound only, so it is never called certified unless
+that bound meets it.
 
 References
 ----------

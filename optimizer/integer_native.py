@@ -38,14 +38,13 @@ last_interrupt: tuple[bool, int] | None = None  # (stopped, nodes) of the last C
 _tried = False
 
 _P = ctypes.c_void_p  # pointers are passed as addresses (faster than data_as for ~25 arrays)
-_PL = ctypes.c_void_p
 
 
 class _Problem(ctypes.Structure):
     _fields_ = [
         ("n", ctypes.c_int), ("m", ctypes.c_int), ("g", ctypes.c_int),
         ("R", _P), ("z", _P), ("sl", _P), ("aw", _P), ("pm", _P),
-        ("lo", _PL), ("hi", _PL),
+        ("lo", _P), ("hi", _P),
         ("G", _P), ("h", _P), ("rest", _P),
         ("has_m", ctypes.c_int), ("mg", _P), ("mrest", _P),
         ("budget", ctypes.c_double), ("mtol", ctypes.c_double),

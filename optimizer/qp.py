@@ -82,13 +82,17 @@ class HedgeQP:
 
     @cached_property
     def A(self) -> np.ndarray:
-        """Quadratic term ``MᵀM`` of ``f(n) = nᵀAn + 2bᵀn + c`` (computed once per problem)."""
-        return self.M.T @ self.M
+        """Quadratic term ``MᵀM`` of ``f(n) = nᵀAn + 2bᵀn + c`` (computed once, read-only)."""
+        A = self.M.T @ self.M
+        A.setflags(write=False)
+        return A
 
     @cached_property
     def b(self) -> np.ndarray:
-        """Linear term ``Mᵀu`` (computed once per problem)."""
-        return self.M.T @ self.u
+        """Linear term ``Mᵀu`` (computed once, read-only)."""
+        b = self.M.T @ self.u
+        b.setflags(write=False)
+        return b
 
     @property
     def c(self) -> float:
