@@ -77,16 +77,15 @@ def prepare_levels(qp: HedgeQP, root, *, node_bounds: bool | None = None,
     """
     n = qp.n
     perm = root.perm
-    if root.X is None:  # levels are the original variables, permuted
+    if root.X is None:  # levels are the original variables, permuted: index, do not multiply
         X = np.eye(n)[:, perm]
         Gl, hl = qp.G[:, perm], qp.h
+        Mp, A, bp = qp.M[:, perm], qp.A[np.ix_(perm, perm)], qp.b[perm]
     else:  # levels are lattice coordinates, x = X y
         X, Gl, hl = root.X, root.Gl, root.hl
+        Mp, A, bp = qp.M @ X, X.T @ qp.A @ X, X.T @ qp.b
     R = np.ascontiguousarray(root.R, float)
     zl = np.asarray(root.z, float)
-    Mp = qp.M @ X
-    A = X.T @ qp.A @ X
-    bp = X.T @ qp.b
     off = float(getattr(qp, "offset", 0.0))  # constant outside ‖Mx + u‖²
     # exact expansion of the true objective around the centre: with δ = y − z and g = A z + b,
     # f(y) = f(z) + 2gᵀδ + Σ_i (R_ii δ_i + t_i)², so a leaf is scored with scalars only

@@ -69,23 +69,28 @@ def _violation(qp: HedgeQP, x: np.ndarray) -> float:
     return v
 
 
-def _move_violations(qp: HedgeQP, x: np.ndarray, steps: np.ndarray) -> np.ndarray:
-    """:func:`_violation` after each single move ``x_j → x_j + s`` at once; shape (len(steps), n).
+def _violations_after(qp: HedgeQP, x: np.ndarray, dx: np.ndarray) -> np.ndarray:
+    """:func:`_violation` at ``x + dx_c`` for every row ``dx_c`` of ``dx`` (shape (k, n)) at once.
 
-    Rows: ``Σ_r max((Gx − h)_r + s G_rj, 0)``; margin:
-    ``max(mᵀ|x| + m_j(|x_j + s| − |x_j|) − B, 0)``.
+    Rows: ``Σ_r max((Gx − h)_r + (G dx_c)_r, 0)``; margin:
+    ``max(mᵀ|x| − B + mᵀ(|x + dx_c| − |x|), 0)``.
     """
-    n = len(x)
-    v = np.zeros((len(steps), n))
+    v = np.zeros(dx.shape[0])
     if qp.G.shape[0]:
         slack = qp.G @ x - qp.h
-        v += np.maximum(slack[None, :, None] + steps[:, None, None] * qp.G[None], 0.0).sum(axis=1)
+        v += np.maximum(slack[None, :] + dx @ qp.G.T, 0.0).sum(axis=1)
     if qp.margin_budget is not None and qp.margin is not None:
         m = np.asarray(qp.margin, float)
         used = float(m @ np.abs(x)) - float(qp.margin_budget)
-        change = m[None, :] * (np.abs(x[None, :] + steps[:, None]) - np.abs(x)[None, :])
-        v += np.maximum(used + change, 0.0)
+        v += np.maximum(used + (np.abs(x[None, :] + dx) - np.abs(x)[None, :]) @ m, 0.0)
     return v
+
+
+def _move_violations(qp: HedgeQP, x: np.ndarray, steps: np.ndarray) -> np.ndarray:
+    """:func:`_violation` after each single move ``x_j → x_j + s``; shape (len(steps), n)."""
+    n = len(x)
+    dx = (steps[:, None, None] * np.eye(n)[None]).reshape(-1, n)
+    return _violations_after(qp, x, dx).reshape(len(steps), n)
 
 
 def _sequential_floor_ceil(A: np.ndarray, b: np.ndarray, z: np.ndarray,
@@ -144,17 +149,11 @@ def _pair_move(qp: HedgeQP, A: np.ndarray, grad: np.ndarray, x: np.ndarray,
     j, k = np.divmod(rest, n)
     s, t = sj[c, 0], tk[c, 0]
     # violation of every candidate at once (as _violation after the pair move)
-    v = np.zeros(len(top))
-    if qp.G.shape[0]:
-        slack = qp.G @ x - qp.h
-        v += np.maximum(slack[None, :] + s[:, None] * qp.G[:, j].T + t[:, None] * qp.G[:, k].T,
-                        0.0).sum(axis=1)
-    if qp.margin_budget is not None and qp.margin is not None:
-        m = np.asarray(qp.margin, float)
-        used = float(m @ np.abs(x)) - float(qp.margin_budget)
-        used = used + m[j] * (np.abs(x[j] + s) - np.abs(x[j])) + m[k] * (np.abs(x[k] + t)
-                                                                          - np.abs(x[k]))
-        v += np.maximum(used, 0.0)
+    dx = np.zeros((len(top), n))
+    rows = np.arange(len(top))
+    dx[rows, j] += s
+    dx[rows, k] += t
+    v = _violations_after(qp, x, dx)
     ok = np.flatnonzero(v <= _FEAS_TOL)
     if not ok.size:
         return False
