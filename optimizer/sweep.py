@@ -76,9 +76,12 @@ class ScenarioResult:
     limit_scale: float | None = None
     frontier_group: str = ""
 
-    def to_dict(self) -> dict:
-        """JSON-ready (finite numbers or ``None``)."""
-        return finite(asdict(self))
+    def to_dict(self, horizon_days: int | None = None) -> dict:
+        """JSON-ready (finite numbers or ``None``), keys named as in ``solve --json``."""
+        d = asdict(self)
+        d["relaxed_hedged_std"] = d.pop("relaxed_std")
+        d["horizon_days"] = self.settings.get("horizon_days", horizon_days)
+        return finite(d)
 
 
 @dataclass(frozen=True)
@@ -99,7 +102,7 @@ class SweepResult:
         return finite({
             "book": self.book, "currency": self.currency, "horizon_days": self.horizon_days,
             "method": self.method, "mode": self.mode, "seconds": self.seconds,
-            "scenarios": [r.to_dict() for r in self.results],
+            "scenarios": [r.to_dict(self.horizon_days) for r in self.results],
             "frontier": [ln.to_dict() for ln in frontier_lines(self.results)],
             "cautions": list(self.cautions),
         })
@@ -112,7 +115,8 @@ class SweepResult:
         for r in self.results:
             st = r.stress or {}
             row = {"scenario": r.name, "status": r.status, "unhedged_std": r.unhedged_std,
-                   "hedged_std": r.hedged_std, "relaxed_std": r.relaxed_std,
+                   "horizon_days": r.settings.get("horizon_days", self.horizon_days),
+                   "hedged_std": r.hedged_std, "relaxed_hedged_std": r.relaxed_std,
                    "variance_reduction": r.variance_reduction, "margin_used": r.margin_used,
                    "margin_budget": r.margin_budget, "stress": st.get("label"),
                    "stress_unhedged": st.get("unhedged"), "stress_hedged": st.get("hedged")}
