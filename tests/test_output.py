@@ -384,3 +384,30 @@ def test_book_metavar_and_workers_flag_are_the_same_everywhere():
     for cmd in ("sweep", "backtest"):
         res = runner.invoke(app, [cmd, "--help"], env={"COLUMNS": "200"})
         assert "-w" in res.output, cmd
+
+
+# --------------------------------------------------------------------------- sweep words
+
+SWEEP_SMALL = """\
+[[scenario]]
+name = "short-horizon"
+horizon_days = 5
+
+[[grid]]
+name = "budget"
+vary = { margin_budget = [500000.0, 1000000.0] }
+"""
+
+
+def test_sweep_labels_horizons_and_a_frontier_too_short_to_draw(demo_folder, tmp_path):
+    scen = tmp_path / "small.toml"
+    scen.write_text(SWEEP_SMALL)
+    png = tmp_path / "f.png"
+    res = runner.invoke(app, ["sweep", str(demo_folder / "book.toml"), str(scen), "-w", "1",
+                              "--png", str(png)], env={"COLUMNS": "200"})
+    assert res.exit_code == 0, res.output
+    assert "margin_budget=1,000,000" in res.output and "e+06" not in res.output
+    assert "horizons 5, 20 days" in res.output
+    assert not png.exists() and "frontier chart not written" in res.stderr
+    d = _json(["sweep", str(demo_folder / "book.toml"), str(scen), "--json", "-w", "1"])
+    assert {sc["name"]: sc["horizon_days"] for sc in d["scenarios"]}["short-horizon"] == 5

@@ -150,7 +150,9 @@ def register(app: typer.Typer) -> None:
         lines = frontier_lines(res.results)
         if csv is not None:
             write_csv_atomic(res.to_frame(), csv)
-        if png is not None:
+        points = sum(len(ln.scale) for ln in lines)
+        png_skipped = png is not None and points < 2
+        if png is not None and not png_skipped:
             write_frontier_png(lines, png, currency=res.currency,
                                title=f"Limit frontier — {res.book}")
         if as_json:
@@ -165,9 +167,13 @@ def register(app: typer.Typer) -> None:
             out.print(frontier_text(lines, res.currency), highlight=False, markup=False)
             note(out, f"{len(res.results)} scenarios in {res.seconds:.1f} s ({res.mode}); "
                  "shadow prices from the continuous relaxation", "")
-            for path, what in ((csv, "scenario table"), (png, "frontier chart")):
+            for path, what in ((csv, "scenario table"),
+                               (None if png_skipped else png, "frontier chart")):
                 if path is not None:
                     out.print(text(f"{what} written to {path}"))
             out.print(cautions_panel(res))
+        if png_skipped:
+            err.print(text(f"frontier chart not written to {png}: fewer than two feasible "
+                           "limit-scale points (add a limit_scale grid)", "yellow"))
         if not any(r.feasible for r in res.results):
             fail("no scenario has a feasible hedge", EXIT_NO_HEDGE)
