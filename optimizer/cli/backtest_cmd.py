@@ -142,7 +142,9 @@ def register(app: typer.Typer) -> None:
 
             write_backtest_png(result, png)
         if as_json:
-            print(json.dumps(result.to_dict(), indent=2))
+            d = result.to_dict()
+            d["notes"] = list(prep.notes) + d["notes"]  # e.g. the rows as_of left out
+            print(json.dumps(d, indent=2))
             return
         show(out, ranking_table(result))
         for line in RANKING_GUIDE:

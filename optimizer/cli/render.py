@@ -135,6 +135,15 @@ def _parts(grid: Grid, width: int) -> list[tuple[list[int], list[int]]]:
         else:
             current = trial
     parts.append(current)
+    # even the parts out: move trailing columns right while the next part is the thinner one
+    k0 = len(keys)
+    for i in range(len(parts) - 2, -1, -1):
+        while len(parts[i]) - k0 > len(parts[i + 1]) - k0 + 1:
+            trial = keys + [parts[i][-1]] + parts[i + 1][k0:]
+            if _widths(trial, natural, least, wrap, width) is None:
+                break
+            parts[i + 1] = trial
+            parts[i] = parts[i][:-1]
     # a part that cannot fit even alone is shown at its least widths (nothing more can be done)
     return [(p, _widths(p, natural, least, wrap, width) or [least[j] for j in p]) for p in parts]
 
