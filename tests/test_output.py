@@ -92,11 +92,21 @@ def test_whole_counts_are_integers_everywhere(outputs, demo_folder, tmp_path):
     assert cols and len(frame) > 0
     for c in cols:
         assert not frame[c].dropna().str.contains(r"\.").any(), c
+    trades = tmp_path / "trades.csv"
+    res = runner.invoke(app, ["solve", str(book), "--trades", str(trades)])
+    assert res.exit_code == 0, res.output
+    tl = pd.read_csv(trades, dtype=str)
+    for c in ("contracts", "current", "target"):
+        assert tl[c].str.fullmatch(r"-?\d+").all(), c
+    assert {"trade_notional_USD", "target_margin_USD", "margin_change_USD"} <= set(tl.columns)
 
 
 def test_continuous_says_it_is_fractional(outputs, demo_folder):
     d = outputs["solve-continuous"]
     assert any(not float(i["target"]).is_integer() for i in d["instruments"])
+    for i in d["instruments"]:  # the side follows the trade as shown (two decimals)
+        shown = round(i["trade"], 2)
+        assert i["side"] == ("BUY" if shown > 0 else "SELL" if shown < 0 else "HOLD")
     res = runner.invoke(app, ["solve", str(demo_folder / "book.toml"), "-m", "continuous"],
                         env={"COLUMNS": "100"})
     assert "fractional" in res.output

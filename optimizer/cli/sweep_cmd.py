@@ -125,7 +125,8 @@ def register(app: typer.Typer) -> None:
     @guarded
     def sweep(
         book: Path = BookArg,
-        scenarios: Path = typer.Argument(..., help="Scenario file (TOML).", show_default=False),
+        scenarios: Path = typer.Argument(..., help="Scenario file (TOML).", show_default=False,
+                                         metavar="SCENARIOS"),
         method: str = typer.Option("exact", "--method", "-m",
                                    help="exact (whole contracts, proven) | round | continuous"),
         as_json: bool = typer.Option(False, "--json", help="Print one JSON object on stdout."),
