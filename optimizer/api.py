@@ -133,10 +133,10 @@ def solve_model(model: HedgeModel, method: str = "exact", *, time_limit: float =
                 notes: list[str] | None = None) -> HedgeReport:
     """Solve a built model and report."""
     sol = solve_qp(model.qp, method, time_limit=time_limit, start=model.current)
-    notes = list(notes or []) + history_warnings(model)
+    notes = list(notes or [])
     if not sol.ok:
         notes += [f"conflict: {c}" for c in limit_conflicts(model)]
-    return build_report(model, sol, notes)
+    return replace(build_report(model, sol, notes), warnings=history_warnings(model))
 
 
 def solve_book(book: Book | str | Path, method: str = "exact", *, time_limit: float = 30.0,

@@ -99,6 +99,8 @@ def to_markdown(r: HedgeReport, *, source: str = "", now: datetime | None = None
                     "(continuous relaxation).", "",
                     _table(["limit", "kind", f"shadow price {cur}", "per"],
                            [[x.name, x.kind, _m(x.shadow), x.unit] for x in binding]), ""]
+    if r.warnings:
+        out += ["## Warnings", ""] + [f"- {w}" for w in r.warnings] + [""]
     if r.notes:
         out += ["## Notes", ""] + [f"- {n}" for n in r.notes] + [""]
     out += ["## Cautions", ""] + [f"- {c}" for c in r.cautions] + [""]

@@ -86,7 +86,8 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
         ("limits[].binding", "bool", "", "binds in the continuous relaxation"),
         ("limits[].shadow", "number", CUR_H, "std removed per `unit` of extra limit"),
         ("limits[].unit", "str", "", "what one unit of the limit is"),
-        ("notes", "list[str]", "", "notes and warnings in words"),
+        ("warnings", "list[str]", "", "short history or a singular covariance, in words"),
+        ("notes", "list[str]", "", "notes in words"),
         ("cautions", "list[str]", "", "cautions"),
     ],
     "sweep": _COMMON + [

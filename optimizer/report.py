@@ -66,6 +66,7 @@ class HedgeReport:
     limits: list[LimitLine] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
     cautions: tuple[str, ...] = CAUTIONS
+    warnings: list[str] = field(default_factory=list)   # short history, singular covariance
     as_of: str | None = None             # decision date from [book] as_of (ISO), if set
     price_date: str | None = None        # last price date used (ISO)
     overrides: dict = field(default_factory=dict)   # settings replaced on the command line

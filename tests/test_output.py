@@ -194,9 +194,11 @@ def test_as_of_refuses_an_expired_contract_month(demo_folder, tmp_path):
 def test_short_window_warns_in_solve_and_check(demo_folder):
     book = str(demo_folder / "book.toml")
     d = _json(["solve", book, "--json", "--window", "120"])
-    assert any(n.startswith("short history") for n in d["notes"])
+    assert any(n.startswith("short history") for n in d["warnings"])
     res = runner.invoke(app, ["check", book], env={"COLUMNS": "200"})
-    assert res.exit_code == 0 and "short history" in res.output
+    assert res.exit_code == 0 and "warning: short history" in res.output
+    res = runner.invoke(app, ["solve", book, "--window", "120"], env={"COLUMNS": "200"})
+    assert res.exit_code == 0 and "warning: short history" in res.output
 
 
 def test_singular_covariance_floor_is_explained(demo_folder, tmp_path):
@@ -204,7 +206,7 @@ def test_singular_covariance_floor_is_explained(demo_folder, tmp_path):
     # 20 series, 12 overlapping-free rows: the sample covariance is singular
     d = _json(["solve", str(book), "--json", "--window", "200", "--sampling",
                "non-overlapping", "--estimator", "sample"])
-    assert any("basis-risk floor is 0" in n for n in d["notes"])
+    assert any("basis-risk floor is 0" in n for n in d["warnings"])
 
 
 def test_window_too_short_for_horizon_names_file_and_both_keys(demo_folder, tmp_path):

@@ -137,6 +137,8 @@ def print_report(r: HedgeReport, console: Console) -> None:
         lt = limits_table(r)
         if lt is not None:
             show(console, lt)
+    for w in r.warnings:
+        console.print(text("warning: " + w, "yellow"))
     for n in r.notes:
         note(console, n)
     console.print(cautions_panel(r))
