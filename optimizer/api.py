@@ -67,7 +67,10 @@ def cut_at(panel: PricePanel, day: date, source: str) -> tuple[PricePanel, list[
                          f"{panel.first_date.date()}", file=source, key="book.as_of")
     later = len(panel.prices) - 1 - end
     if later == 0:
-        return panel, []
+        last = panel.last_date.date()
+        stale = (day - last).days
+        return panel, ([f"the last price ({last}) is {stale} days before as_of {day}: current "
+                        "prices are that old"] if stale > 3 else [])
     cut = replace(
         panel, prices=panel.as_of(end),
         file_rows=None if panel.file_rows is None else panel.file_rows.iloc[:end + 1],

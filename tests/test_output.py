@@ -180,6 +180,14 @@ def test_as_of_cuts_prices_and_says_so(demo_folder, tmp_path):
     assert crude["price"] == pytest.approx(last["crude_m1"])
 
 
+def test_as_of_after_the_last_price_says_how_old_the_prices_are(demo_folder, tmp_path):
+    book = _copy(demo_folder, tmp_path)
+    _edit(book, "as_of = 2025-12-19", "as_of = 2026-01-09")
+    d = _json(["solve", str(book), "--json"])
+    assert d["price_date"] == "2025-12-19"
+    assert any("21 days before as_of 2026-01-09" in n for n in d["notes"])
+
+
 def test_as_of_refuses_an_expired_contract_month(demo_folder, tmp_path):
     book = _copy(demo_folder, tmp_path)
     _edit(book, 'contract_month = "2026-04"', 'contract_month = "2025-11"')
