@@ -297,3 +297,10 @@ def test_book_metavar_and_workers_flag_are_the_same_everywhere():
         assert "-w" in res.output, cmd
 
 
+
+
+def test_json_zero_has_no_sign():
+    from optimizer.jsonsafe import finite
+
+    got = json.dumps(finite({"a": -0.0, "b": [-0.0, float("nan")]}))
+    assert got == '{"a": 0.0, "b": [0.0, null]}'
