@@ -123,11 +123,15 @@ def model_of(prep: Prepared, *, fractional: bool = False, prices=None, as_of=Non
         changes = horizon_changes(frame, horizon_days=book.book.horizon_days, kind=est.changes,
                                   sampling=est.sampling, window=est.window)
     except InputError as exc:
-        if exc.key != "book.horizon_days" or exc.file is not None:
+        if exc.file is not None or exc.key not in ("book.horizon_days", "estimation.window"):
             raise
+        # the settings come from the book: name it, and both keys when they clash
+        both = exc.key == "book.horizon_days"
         raise InputError(f"{exc.message} ([estimation] window = {est.window} rows, [book] "
-                         f"horizon_days = {book.book.horizon_days})", file=book.source,
-                         key="estimation.window / book.horizon_days") from None
+                         f"horizon_days = {book.book.horizon_days})" if both else exc.message,
+                         file=book.source, column=exc.column,
+                         key="estimation.window / book.horizon_days" if both else exc.key
+                         ) from None
     estimate = estimate_covariance(changes.values, est.estimator, ewma_lambda=est.ewma_lambda)
     return build_hedge_model(book, changes, estimate, fractional=fractional)
 
