@@ -66,8 +66,8 @@ def outputs(demo_folder):
 
 # --------------------------------------------------------------------------- 80 columns
 
-def _cut(output: str) -> list[str]:
-    return [ln for ln in output.splitlines() if "…" in ln or len(ln) > 80]
+def _cut(output: str, width: int = 80) -> list[str]:
+    return [ln for ln in output.splitlines() if "…" in ln or len(ln) > width]
 
 
 def _cells(output: str) -> set[str]:
@@ -79,10 +79,12 @@ def _cells(output: str) -> set[str]:
     return cells
 
 
-def test_solve_at_80_columns_shows_every_figure_whole(demo_folder, outputs):
-    res = runner.invoke(app, ["solve", str(demo_folder / "book.toml")], env={"COLUMNS": "80"})
+@pytest.mark.parametrize("width", [80, 120])
+def test_solve_at_80_columns_shows_every_figure_whole(demo_folder, outputs, width):
+    res = runner.invoke(app, ["solve", str(demo_folder / "book.toml")],
+                        env={"COLUMNS": str(width)})
     assert res.exit_code == 0, res.output
-    assert _cut(res.output) == []
+    assert _cut(res.output, width) == []
     cells = _cells(res.output)
     for i in outputs["solve"]["instruments"]:
         assert f"{i['target_notional']:,.0f}".replace("-0", "0") in cells or \
