@@ -5,7 +5,7 @@ from setuptools import Extension, setup
 setup(
     ext_modules=[
         Extension(
-            "optimizer.native._levels",
+            "basiswise.optimizer.native._levels",
             sources=["optimizer/native/levels.c", "optimizer/native/active_set.c"],
             extra_compile_args=["-O2"],
             optional=True,  # without a C compiler the pure-Python search runs instead

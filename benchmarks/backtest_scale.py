@@ -30,13 +30,13 @@ ESTIMATORS = ["sample", "ledoit-wolf", "oas", "constant-correlation", "ewma"]
 def one(config: dict) -> dict:
     """Run one configuration in this process and measure it."""
     sys.path.insert(0, str(ROOT))
-    from optimizer.api import prepare
-    from optimizer.backtest import run_backtest
+    from basiswise.optimizer.backtest import run_backtest
+    from basiswise.optimizer.pipeline import prepare
 
     prep = prepare(BOOK)
     t0 = time.perf_counter()
     if config.get("workers", 1) > 1:
-        from optimizer.backtest_parallel import run_backtest_parallel
+        from basiswise.optimizer.backtest_parallel import run_backtest_parallel
 
         res = run_backtest_parallel(prep, step=20, estimators=config["estimators"],
                                     method=config["method"], reuse=config["reuse"],

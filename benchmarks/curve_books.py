@@ -22,7 +22,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from optimizer.qp import HedgeQP
+from basiswise.optimizer.qp import HedgeQP
 
 __all__ = ["curve_book", "sizes_for"]
 

@@ -26,9 +26,9 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from curve_books import curve_book  # noqa: E402
 
-from optimizer.formulation import solve_relaxed, solve_scip  # noqa: E402
-from optimizer.integer import solve_exact  # noqa: E402
-from optimizer.rounding import naive_round  # noqa: E402
+from basiswise.optimizer.formulation import solve_relaxed, solve_scip  # noqa: E402
+from basiswise.optimizer.integer import solve_exact  # noqa: E402
+from basiswise.optimizer.rounding import naive_round  # noqa: E402
 
 
 def run_one(n: int, regime: str, seed: int, exact_limit: float, scip_limit: float,
@@ -73,7 +73,7 @@ def demo_book_timing(repeats: int = 7) -> dict:
     """Median wall time and nodes of one exact solve of the demo book, as the backtest runs it."""
     from dataclasses import replace
 
-    from optimizer.api import model_of, prepare
+    from basiswise.optimizer.pipeline import model_of, prepare
 
     book = Path(__file__).resolve().parents[1] / "scenarios" / "demo" / "book.toml"
     qp = replace(model_of(prepare(book)).qp, offset=0.0)
@@ -130,7 +130,7 @@ def main(argv: list[str] | None = None) -> int:
     exact_limit = 5.0 if args.quick else args.exact_limit
     scip_limit = 5.0 if args.quick else args.scip_limit
     seeds48 = 1 if args.quick else args.seeds
-    from optimizer.integer_native import native_search
+    from basiswise.optimizer.integer_native import native_search
 
     print(f"exact time limit {exact_limit:g} s, SCIP time limit {scip_limit:g} s; "
           "variances are fractions of the unhedged variance; * = rounding breaks a limit; "

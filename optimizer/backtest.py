@@ -41,16 +41,16 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from data_adapters.book import Book
-from data_adapters.errors import InputError
+from basiswise.data_adapters.book import Book
+from basiswise.data_adapters.errors import InputError
 
-from .api import Prepared, prepare
 from .cautions import CAUTIONS
 from .changes import dollar_covariance, horizon_changes
 from .covariance import ESTIMATORS, estimate_covariance
 from .effectiveness import EVIDENCE_NOTE, Effectiveness, effectiveness_by_group
 from .jsonsafe import finite
 from .model import build_hedge_model, loadings
+from .pipeline import Prepared, prepare
 from .qp import HedgeQP
 from .solve import solve_qp
 from .strategies import (

@@ -11,7 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
-from data_adapters.output import atomic_path
+from basiswise.data_adapters.output import atomic_path
 
 from .backtest import BacktestResult, Run
 

@@ -15,7 +15,7 @@ from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import replace
 from pathlib import Path
 
-from data_adapters.book import Book
+from basiswise.data_adapters.book import Book
 
 from .backtest import BacktestResult, run_backtest
 from .strategies import ESTIMATOR_FREE, STRATEGIES

@@ -47,7 +47,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from data_adapters.errors import InputError
+from basiswise.data_adapters.errors import InputError
 
 CHANGE_KINDS = ("relative", "log", "absolute")
 SAMPLINGS = ("overlapping", "non-overlapping", "scaled")

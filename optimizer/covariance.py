@@ -41,7 +41,7 @@ from dataclasses import dataclass
 import numpy as np
 from sklearn.covariance import OAS, LedoitWolf
 
-from data_adapters.errors import InputError
+from basiswise.data_adapters.errors import InputError
 
 ESTIMATORS = ("sample", "ledoit-wolf", "oas", "constant-correlation", "ewma")
 

@@ -29,8 +29,8 @@ from dataclasses import asdict, dataclass
 import numpy as np
 from scipy import stats
 
-from data_adapters.book import Book
-from data_adapters.errors import InputError
+from basiswise.data_adapters.book import Book
+from basiswise.data_adapters.errors import InputError
 
 # common practice, no source: the "80-125 %" dollar-offset band
 DOLLAR_OFFSET_BAND = (0.80, 1.25)

@@ -13,7 +13,7 @@ import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from data_adapters.output import atomic_path
+from basiswise.data_adapters.output import atomic_path
 
 __all__ = ["FrontierLine", "frontier_lines", "frontier_text", "write_frontier_png"]
 

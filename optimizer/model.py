@@ -26,9 +26,9 @@ from functools import lru_cache
 
 import numpy as np
 
-from data_adapters.book import Book
-from data_adapters.errors import InputError
-from data_adapters.units import units_in_price_unit
+from basiswise.data_adapters.book import Book
+from basiswise.data_adapters.errors import InputError
+from basiswise.data_adapters.units import units_in_price_unit
 
 from .changes import Changes, dollar_covariance
 from .covariance import CovarianceEstimate

@@ -5,8 +5,8 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from data_adapters.book import Book
-from data_adapters.errors import InputError
+from basiswise.data_adapters.book import Book
+from basiswise.data_adapters.errors import InputError
 
 from .changes import SAMPLINGS
 from .covariance import ESTIMATORS

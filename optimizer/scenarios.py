@@ -60,8 +60,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from data_adapters.book import Book
-from data_adapters.toml_file import read_toml
+from basiswise.data_adapters.book import Book
+from basiswise.data_adapters.toml_file import read_toml
 
 from .scenario_checks import (
     _CHOICES,

@@ -40,9 +40,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from data_adapters.book import Book
-from data_adapters.errors import InputError
-from data_adapters.units import units_in_price_unit
+from basiswise.data_adapters.book import Book
+from basiswise.data_adapters.errors import InputError
+from basiswise.data_adapters.units import units_in_price_unit
 
 from .model import book_position
 

@@ -33,16 +33,16 @@ from typing import Any
 
 import numpy as np
 
-from data_adapters.book import Book, Constraints, load_book
-from data_adapters.errors import InputError
+from basiswise.data_adapters.book import Book, Constraints, load_book
+from basiswise.data_adapters.errors import InputError
 
-from .api import prepare
 from .cautions import CAUTIONS
 from .changes import horizon_changes
 from .conflicts import limit_conflicts
 from .covariance import estimate_covariance
 from .jsonsafe import finite
 from .model import HedgeModel, build_hedge_model, with_limits
+from .pipeline import prepare
 from .report import build_report
 from .scenarios import Scenario, ScenarioSet, apply_scenario
 from .solve import METHODS, solve_qp

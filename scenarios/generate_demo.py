@@ -51,7 +51,7 @@ import numpy as np
 import pandas as pd
 from scipy.signal import lfilter
 
-from data_adapters.errors import InputError
+from basiswise.data_adapters.errors import InputError
 
 DEFAULT_SEED = 20261201
 DEFAULT_START = "2016-01-04"

@@ -7,7 +7,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from data_adapters.book import Book
+from basiswise.data_adapters.book import Book
 
 
 def changes_with_moments(cov: np.ndarray, n: int, seed: int = 0) -> np.ndarray:

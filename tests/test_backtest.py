@@ -11,15 +11,15 @@ import pytest
 import statsmodels.api as sm
 from typer.testing import CliRunner
 
-from data_adapters.errors import InputError
-from optimizer.api import prepare
-from optimizer.backtest import run_backtest, stable_qp
-from optimizer.backtest_chart import write_backtest_png
-from optimizer.cli.app import app
-from optimizer.covariance import ESTIMATORS
-from optimizer.model import loadings
-from optimizer.qp import HedgeQP
-from optimizer.strategies import (
+from basiswise.cli.app import app
+from basiswise.data_adapters.errors import InputError
+from basiswise.optimizer.backtest import run_backtest, stable_qp
+from basiswise.optimizer.backtest_chart import write_backtest_png
+from basiswise.optimizer.covariance import ESTIMATORS
+from basiswise.optimizer.model import loadings
+from basiswise.optimizer.pipeline import prepare
+from basiswise.optimizer.qp import HedgeQP
+from basiswise.optimizer.strategies import (
     check_strategies,
     one_to_one,
     predicted_variance,

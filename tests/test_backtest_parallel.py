@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from optimizer.backtest import run_backtest
-from optimizer.backtest_parallel import run_backtest_parallel
-from scenarios import demo_book_path
+from basiswise.optimizer.backtest import run_backtest
+from basiswise.optimizer.backtest_parallel import run_backtest_parallel
+from basiswise.scenarios import demo_book_path
 
 
 def test_two_processes_equal_serial():

@@ -10,8 +10,8 @@ from pathlib import Path
 
 import pytest
 
-from data_adapters.book import Book, load_book
-from data_adapters.errors import InputError
+from basiswise.data_adapters.book import Book, load_book
+from basiswise.data_adapters.errors import InputError
 
 
 @pytest.fixture

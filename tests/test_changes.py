@@ -8,8 +8,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from data_adapters.errors import InputError
-from optimizer.changes import CHANGE_KINDS, SAMPLINGS, dollar_covariance, horizon_changes
+from basiswise.data_adapters.errors import InputError
+from basiswise.optimizer.changes import CHANGE_KINDS, SAMPLINGS, dollar_covariance, horizon_changes
 
 
 def _frame(values: dict[str, list[float]]) -> pd.DataFrame:

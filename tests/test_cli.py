@@ -10,8 +10,8 @@ import pandas as pd
 import pytest
 from typer.testing import CliRunner
 
-from optimizer.cli.app import app
-from scenarios import demo_book_path
+from basiswise.cli.app import app
+from basiswise.scenarios import demo_book_path
 
 runner = CliRunner()
 

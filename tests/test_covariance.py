@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 from sklearn.covariance import OAS, LedoitWolf
 
-from data_adapters.errors import InputError
-from optimizer.covariance import ESTIMATORS, estimate_covariance
+from basiswise.data_adapters.errors import InputError
+from basiswise.optimizer.covariance import ESTIMATORS, estimate_covariance
 
 
 def _sample(T: int, k: int, seed: int) -> np.ndarray:

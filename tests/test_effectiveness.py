@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 import statsmodels.api as sm
 
-from data_adapters.errors import InputError
-from optimizer.effectiveness import (
+from basiswise.data_adapters.errors import InputError
+from basiswise.optimizer.effectiveness import (
     DOLLAR_OFFSET_BAND,
     EVIDENCE_NOTE,
     MIN_R2,

@@ -7,7 +7,7 @@ import itertools
 import numpy as np
 import pytest
 
-from optimizer.api import model_of, prepare, solve_model
+from basiswise.optimizer.pipeline import model_of, prepare, solve_model
 from tests.helpers import book_dict, make_book, write_wide
 
 

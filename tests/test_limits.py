@@ -5,10 +5,10 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from data_adapters.book import load_book
-from data_adapters.errors import InputError
-from optimizer.api import model_of, prepare, solve_model
-from scenarios import demo_book_path
+from basiswise.data_adapters.book import load_book
+from basiswise.data_adapters.errors import InputError
+from basiswise.optimizer.pipeline import model_of, prepare, solve_model
+from basiswise.scenarios import demo_book_path
 
 
 def _book(**constraints):
@@ -72,7 +72,7 @@ def test_infeasible_book_names_the_conflict_and_writes_nothing(tmp_path):
 
     from typer.testing import CliRunner
 
-    from optimizer.cli.app import app
+    from basiswise.cli.app import app
 
     src = demo_book_path().parent
     for name in ("book.toml", "prices.csv"):

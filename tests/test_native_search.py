@@ -9,12 +9,12 @@ import time
 import numpy as np
 import pytest
 
-from optimizer.formulation import solve_relaxed
-from optimizer.integer_bounds import polish, prepare_root
-from optimizer.integer_lattice import lattice_root
-from optimizer.integer_native import native_search
-from optimizer.integer_search import enumerate_levels
-from optimizer.rounding import best_rounded, integer_box
+from basiswise.optimizer.formulation import solve_relaxed
+from basiswise.optimizer.integer_bounds import polish, prepare_root
+from basiswise.optimizer.integer_lattice import lattice_root
+from basiswise.optimizer.integer_native import native_search
+from basiswise.optimizer.integer_search import enumerate_levels
+from basiswise.optimizer.rounding import best_rounded, integer_box
 from tests.test_integer import brute_force, curve_like_book, random_book
 
 needs_native = pytest.mark.skipif(not native_search(), reason="no compiled search here")
@@ -106,7 +106,7 @@ def test_compiled_search_stops_with_the_same_true_bound():
 
 def test_bundled_source_compiles_into_a_fresh_cache(tmp_path, monkeypatch):
     # the path a source checkout (or an install without the built extension) takes
-    from optimizer import integer_native
+    from basiswise.optimizer import integer_native
 
     cc = (sysconfig.get_config_var("CC") or "cc").split()[0]
     if shutil.which(cc) is None:
@@ -124,7 +124,7 @@ def test_bundled_source_compiles_into_a_fresh_cache(tmp_path, monkeypatch):
 def test_compiled_active_set_equals_the_numpy_loop(monkeypatch):
     # polish (and quick_relaxation) on the same books with both engines: same point, same
     # multipliers; the KKT conditions themselves are checked in test_integer
-    from optimizer.integer_bounds import quick_relaxation
+    from basiswise.optimizer.integer_bounds import quick_relaxation
 
     rng = np.random.default_rng(5150)
     compared = 0
@@ -151,7 +151,7 @@ def test_compiled_active_set_equals_the_numpy_loop(monkeypatch):
 def test_ctrl_c_stops_a_long_compiled_search(monkeypatch):
     # Ctrl-C arrives while the main thread waits for the search thread: the search is told to
     # stop, stops at its next clock check (within 1,024 nodes) and the interrupt goes on
-    from optimizer import integer_native
+    from basiswise.optimizer import integer_native
 
     rng = np.random.default_rng(2718)
     qp = curve_like_book(rng, 16)
@@ -177,6 +177,6 @@ def test_ctrl_c_stops_a_long_compiled_search(monkeypatch):
 def test_python_and_c_agree_on_the_problem_layout():
     import ctypes
 
-    from optimizer import integer_native
+    from basiswise.optimizer import integer_native
 
     assert integer_native._load().bw_problem_size() == ctypes.sizeof(integer_native._Problem)

@@ -6,10 +6,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from data_adapters.book import load_book
-from data_adapters.errors import InputError
-from data_adapters.output import atomic_path, write_csv_atomic, write_text_atomic
-from data_adapters.prices import check_positive, load_prices, read_prices
+from basiswise.data_adapters.book import load_book
+from basiswise.data_adapters.errors import InputError
+from basiswise.data_adapters.output import atomic_path, write_csv_atomic, write_text_atomic
+from basiswise.data_adapters.prices import check_positive, load_prices, read_prices
 
 SERIES = ["rack_diesel", "ulsd_m1", "crude_m1"]
 

@@ -6,10 +6,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from data_adapters.book import load_book
-from data_adapters.errors import InputError
-from data_adapters.prices import load_prices
-from data_adapters.rolls import roll_generic
+from basiswise.data_adapters.book import load_book
+from basiswise.data_adapters.errors import InputError
+from basiswise.data_adapters.prices import load_prices
+from basiswise.data_adapters.rolls import roll_generic
 
 # Invented product "ulsd" with four monthly contracts (all Fridays or weekdays).
 EXPIRIES = pd.DataFrame({

@@ -9,10 +9,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from data_adapters.book import load_book
-from data_adapters.errors import InputError
-from optimizer.scenarios import Scenario, apply_scenario, load_scenarios, parse_scenarios
-from optimizer.stress import historical_moves, shock_vector, stress_pnl, worst_window
+from basiswise.data_adapters.book import load_book
+from basiswise.data_adapters.errors import InputError
+from basiswise.optimizer.scenarios import Scenario, apply_scenario, load_scenarios, parse_scenarios
+from basiswise.optimizer.stress import historical_moves, shock_vector, stress_pnl, worst_window
 
 DEMO = Path(__file__).resolve().parents[1] / "scenarios" / "demo"
 

@@ -10,10 +10,10 @@ import numpy as np
 import pytest
 from typer.testing import CliRunner
 
-from data_adapters.book import load_book
-from optimizer.cli.app import app
-from optimizer.scenarios import parse_scenarios
-from optimizer.sweep import SweepRunner, run_sweep
+from basiswise.cli.app import app
+from basiswise.data_adapters.book import load_book
+from basiswise.optimizer.scenarios import parse_scenarios
+from basiswise.optimizer.sweep import SweepRunner, run_sweep
 
 DEMO = Path(__file__).resolve().parents[1] / "scenarios" / "demo"
 SCENARIOS = {

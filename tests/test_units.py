@@ -6,8 +6,8 @@ import math
 
 import pytest
 
-from data_adapters.errors import InputError
-from data_adapters.units import TRADE_UNITS, parse_price_unit, units_in_price_unit, ureg
+from basiswise.data_adapters.errors import InputError
+from basiswise.data_adapters.units import TRADE_UNITS, parse_price_unit, units_in_price_unit, ureg
 
 
 def q(name: str):

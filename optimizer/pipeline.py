@@ -10,8 +10,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
-from data_adapters.book import Book, load_book
-from data_adapters.prices import PricePanel, check_positive, load_prices
+from basiswise.data_adapters.book import Book, load_book
+from basiswise.data_adapters.prices import PricePanel, check_positive, load_prices
 
 from .changes import horizon_changes
 from .conflicts import limit_conflicts

@@ -23,13 +23,13 @@ MethodOpt = typer.Option("exact", "--method", "-m",
 
 
 def _write_trades(report, path: Path) -> None:
-    from data_adapters.output import write_csv_atomic
+    from basiswise.data_adapters.output import write_csv_atomic
 
     write_csv_atomic(report.trade_list(), path)
 
 
 def _solve_and_show(book, method, trades, as_json, time_limit, **overrides) -> None:
-    from optimizer.api import solve_book
+    from basiswise.optimizer.pipeline import solve_book
 
     from .tables import print_report
 
@@ -81,7 +81,7 @@ def solve(
 @guarded
 def check(book: Path = BookArg) -> None:
     """Validate a book and its prices without solving."""
-    from optimizer.api import prepare
+    from basiswise.optimizer.pipeline import prepare
 
     prep = prepare(book)
     b, p = prep.book, prep.panel
@@ -107,9 +107,9 @@ def report(
     time_limit: float = typer.Option(30.0, help="Seconds allowed for the whole-contract search."),
 ) -> None:
     """Solve the book and write the hedge report (Markdown) for the hedge file."""
-    from data_adapters.output import write_text_atomic
-    from optimizer.api import solve_book
-    from optimizer.markdown import to_markdown
+    from basiswise.data_adapters.output import write_text_atomic
+    from basiswise.optimizer.markdown import to_markdown
+    from basiswise.optimizer.pipeline import solve_book
 
     if method not in ("exact", "round", "continuous"):
         fail(f"unknown method '{method}'; valid: exact, round, continuous")
@@ -130,7 +130,7 @@ def demo(
 ) -> None:
     """Write the invented demo book into a folder, solve it and write its trade list."""
     folder.mkdir(parents=True, exist_ok=True)
-    src = resources.files("scenarios") / "demo"
+    src = resources.files("basiswise.scenarios") / "demo"
     for name in ("book.toml", "prices.csv", "limit_cuts.toml"):
         item = src / name
         if item.is_file():

@@ -92,9 +92,9 @@ def _stress_labels(res) -> list[str]:
 
 
 def _run(book, scenarios, method, workers, scheduler, show_progress):
-    from data_adapters.book import load_book
-    from optimizer.scenarios import load_scenarios
-    from optimizer.sweep import default_workers, run_sweep
+    from basiswise.data_adapters.book import load_book
+    from basiswise.optimizer.scenarios import load_scenarios
+    from basiswise.optimizer.sweep import default_workers, run_sweep
 
     b = load_book(book)
     ss = load_scenarios(scenarios, b)
@@ -130,8 +130,8 @@ def register(app: typer.Typer) -> None:
                                              help="dask.distributed scheduler address."),
     ) -> None:
         """Solve every scenario of a scenario file and compare residual risk and limits."""
-        from data_adapters.output import write_csv_atomic
-        from optimizer.frontier import frontier_lines, frontier_text, write_frontier_png
+        from basiswise.data_adapters.output import write_csv_atomic
+        from basiswise.optimizer.frontier import frontier_lines, frontier_text, write_frontier_png
 
         if method not in ("exact", "round", "continuous"):
             fail(f"unknown method '{method}'; valid: exact, round, continuous")

@@ -7,7 +7,7 @@ import functools
 import typer
 from rich.console import Console
 
-from data_adapters.errors import InputError
+from basiswise.data_adapters.errors import InputError
 
 # piped output gets a width that fits the widest table instead of rich's default 80
 out = Console() if Console().is_terminal else Console(width=130)
