@@ -27,12 +27,12 @@ _WHERE = {
     **dict.fromkeys(["Book", "load_book"], "data_adapters.book"),
     "InputError": "data_adapters.errors",
     **dict.fromkeys(["PricePanel", "load_prices"], "data_adapters.prices"),
-    "HedgeReport": "optimizer.report",
+    "HedgeReport": "optimizer.results.report",
     **dict.fromkeys(["Scenario", "ScenarioSet", "load_scenarios", "parse_scenarios"],
-                    "optimizer.scenarios"),
-    **dict.fromkeys(["SweepResult", "run_sweep"], "optimizer.sweep"),
-    **dict.fromkeys(["BacktestResult", "run_backtest"], "optimizer.backtest"),
-    "run_backtest_parallel": "optimizer.backtest_parallel",
+                    "optimizer.sweeps.scenario_file"),
+    **dict.fromkeys(["SweepResult", "run_sweep"], "optimizer.sweeps.runner"),
+    **dict.fromkeys(["BacktestResult", "run_backtest"], "optimizer.backtest.engine"),
+    "run_backtest_parallel": "optimizer.backtest.parallel",
     "demo_book_path": "scenarios",
 }
 

@@ -28,8 +28,8 @@ from pathlib import Path
 import numpy as np
 
 from basiswise.data_adapters.book import load_book
-from basiswise.optimizer.scenarios import parse_scenarios
-from basiswise.optimizer.sweep import SweepRunner, _mp_context, run_sweep
+from basiswise.optimizer.sweeps.runner import SweepRunner, _mp_context, run_sweep
+from basiswise.optimizer.sweeps.scenario_file import parse_scenarios
 
 
 def demo_book() -> Path:

@@ -13,12 +13,12 @@ from pathlib import Path
 from basiswise.data_adapters.book import Book, load_book
 from basiswise.data_adapters.prices import PricePanel, check_positive, load_prices
 
-from .changes import horizon_changes
-from .conflicts import limit_conflicts
-from .covariance import estimate_covariance
-from .model import HedgeModel, build_hedge_model
-from .report import HedgeReport, build_report
-from .solve import solve_qp
+from .estimation.changes import horizon_changes
+from .estimation.covariance import estimate_covariance
+from .problem.conflicts import limit_conflicts
+from .problem.model import HedgeModel, build_hedge_model
+from .results.report import HedgeReport, build_report
+from .solvers.dispatch import solve_qp
 
 
 @dataclass(frozen=True)

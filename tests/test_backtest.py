@@ -13,19 +13,19 @@ from typer.testing import CliRunner
 
 from basiswise.cli.app import app
 from basiswise.data_adapters.errors import InputError
-from basiswise.optimizer.backtest import run_backtest, stable_qp
-from basiswise.optimizer.backtest_chart import write_backtest_png
-from basiswise.optimizer.covariance import ESTIMATORS
-from basiswise.optimizer.model import loadings
-from basiswise.optimizer.pipeline import prepare
-from basiswise.optimizer.qp import HedgeQP
-from basiswise.optimizer.strategies import (
+from basiswise.optimizer.backtest.chart import write_backtest_png
+from basiswise.optimizer.backtest.engine import run_backtest, stable_qp
+from basiswise.optimizer.backtest.strategies import (
     check_strategies,
     one_to_one,
     predicted_variance,
     resolve_proxies,
     single_mv_fractional,
 )
+from basiswise.optimizer.estimation.covariance import ESTIMATORS
+from basiswise.optimizer.pipeline import prepare
+from basiswise.optimizer.problem.model import loadings
+from basiswise.optimizer.problem.qp import HedgeQP
 from tests.helpers import book_dict, make_book, write_wide
 
 SERIES = {"spot_a": "USD/gal", "spot_b": "USD/gal", "fut_a": "USD/gal", "fut_b": "USD/bbl"}

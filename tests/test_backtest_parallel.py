@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from basiswise.optimizer.backtest import run_backtest
-from basiswise.optimizer.backtest_parallel import run_backtest_parallel
+from basiswise.optimizer.backtest.engine import run_backtest
+from basiswise.optimizer.backtest.parallel import run_backtest_parallel
 from basiswise.scenarios import demo_book_path
 
 

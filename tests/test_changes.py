@@ -1,4 +1,4 @@
-"""Tests for optimizer.changes: horizon changes and their dollar covariance."""
+"""Tests for optimizer.estimation.changes: horizon changes and their dollar covariance."""
 
 from __future__ import annotations
 
@@ -9,7 +9,12 @@ import pandas as pd
 import pytest
 
 from basiswise.data_adapters.errors import InputError
-from basiswise.optimizer.changes import CHANGE_KINDS, SAMPLINGS, dollar_covariance, horizon_changes
+from basiswise.optimizer.estimation.changes import (
+    CHANGE_KINDS,
+    SAMPLINGS,
+    dollar_covariance,
+    horizon_changes,
+)
 
 
 def _frame(values: dict[str, list[float]]) -> pd.DataFrame:

@@ -9,7 +9,7 @@ import pytest
 from sklearn.covariance import OAS, LedoitWolf
 
 from basiswise.data_adapters.errors import InputError
-from basiswise.optimizer.covariance import ESTIMATORS, estimate_covariance
+from basiswise.optimizer.estimation.covariance import ESTIMATORS, estimate_covariance
 
 
 def _sample(T: int, k: int, seed: int) -> np.ndarray:

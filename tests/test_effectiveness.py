@@ -9,7 +9,7 @@ import pytest
 import statsmodels.api as sm
 
 from basiswise.data_adapters.errors import InputError
-from basiswise.optimizer.effectiveness import (
+from basiswise.optimizer.backtest.effectiveness import (
     DOLLAR_OFFSET_BAND,
     EVIDENCE_NOTE,
     MIN_R2,

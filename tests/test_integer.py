@@ -8,10 +8,10 @@ import time
 import numpy as np
 import pytest
 
-from basiswise.optimizer.formulation import solve_relaxed, solve_scip
-from basiswise.optimizer.integer import solve_exact
-from basiswise.optimizer.qp import HedgeQP
-from basiswise.optimizer.rounding import naive_round
+from basiswise.optimizer.problem.formulation import solve_relaxed, solve_scip
+from basiswise.optimizer.problem.qp import HedgeQP
+from basiswise.optimizer.solvers.exact import solve_exact
+from basiswise.optimizer.solvers.rounding import naive_round
 
 
 def random_book(rng: np.random.Generator) -> HedgeQP:
@@ -170,10 +170,10 @@ def test_empty_integer_box_is_infeasible():
 
 def test_lattice_levels_equal_brute_force():
     # the LLL phase, run on its own from the rounded incumbent, on small books without a budget
-    from basiswise.optimizer.integer_bounds import polish, prepare_root
-    from basiswise.optimizer.integer_lattice import lattice_root
-    from basiswise.optimizer.integer_search import enumerate_levels
-    from basiswise.optimizer.rounding import best_rounded, integer_box
+    from basiswise.optimizer.solvers.bounds import polish, prepare_root
+    from basiswise.optimizer.solvers.lattice import lattice_root
+    from basiswise.optimizer.solvers.rounding import best_rounded, integer_box
+    from basiswise.optimizer.solvers.search import enumerate_levels
 
     rng = np.random.default_rng(99)
     checked = 0
@@ -230,7 +230,7 @@ def test_start_point_is_used_only_when_feasible_and_never_changes_the_optimum():
 def test_quick_relaxation_matches_bounded_least_squares():
     from scipy.optimize import lsq_linear
 
-    from basiswise.optimizer.integer_bounds import quick_relaxation
+    from basiswise.optimizer.solvers.bounds import quick_relaxation
 
     rng = np.random.default_rng(17)
     accepted = 0
@@ -258,7 +258,7 @@ def test_quick_relaxation_matches_bounded_least_squares():
 
 
 def test_polish_stopped_by_its_iteration_cap_still_returns_consistent_multipliers():
-    from basiswise.optimizer.integer_bounds import lagrangian_terms, polish
+    from basiswise.optimizer.solvers.bounds import lagrangian_terms, polish
 
     rng = np.random.default_rng(5)
     for _ in range(30):
@@ -278,7 +278,7 @@ def test_polish_stopped_by_its_iteration_cap_still_returns_consistent_multiplier
 
 
 def integer_box_of(qp):
-    from basiswise.optimizer.rounding import integer_box
+    from basiswise.optimizer.solvers.rounding import integer_box
 
     return integer_box(qp)
 
@@ -286,7 +286,7 @@ def integer_box_of(qp):
 def test_separable_integrality_bound_never_exceeds_brute_force_minimum():
     # (y − c)ᵀQ(y − c) ≥ Σ_l D_l (c_l − round c_l)² for 0 ⪯ D ⪯ Q, the node bound of the
     # lattice search; checked against the true integer minimum at every level
-    from basiswise.optimizer.integer_search import level_diagonals
+    from basiswise.optimizer.solvers.search import level_diagonals
 
     # source: Buchheim, Caprara & Lodi (2012), Math. Programming 135, 369–395, separable
     # underestimators of a convex quadratic over the integers (from memory)
@@ -340,11 +340,11 @@ def curve_like_book(rng: np.random.Generator, n: int = 16) -> HedgeQP:
 def test_interrupted_lattice_search_reports_a_true_bound(monkeypatch):
     # the frontier of a lattice search stopped after 1024 nodes (deadline already passed, so
     # the stop is deterministic) never exceeds the optimum found without the separable bound
-    from basiswise.optimizer import integer_search
-    from basiswise.optimizer.integer_bounds import polish, prepare_root
-    from basiswise.optimizer.integer_lattice import lattice_root
-    from basiswise.optimizer.integer_search import enumerate_levels
-    from basiswise.optimizer.rounding import best_rounded, integer_box
+    from basiswise.optimizer.solvers import search
+    from basiswise.optimizer.solvers.bounds import polish, prepare_root
+    from basiswise.optimizer.solvers.lattice import lattice_root
+    from basiswise.optimizer.solvers.rounding import best_rounded, integer_box
+    from basiswise.optimizer.solvers.search import enumerate_levels
 
     rng = np.random.default_rng(2718)
     stopped = finished = 0
@@ -365,8 +365,8 @@ def test_interrupted_lattice_search_reports_a_true_bound(monkeypatch):
         # cannot finish in that time are left out (the clock only chooses which books are
         # compared, it is never asserted on)
         with monkeypatch.context() as mp:
-            mp.setattr(integer_search, "_SEP_MIN_N", qp.n + 1)
-            f_all, x_all, _, frontier_all = integer_search.enumerate_levels(
+            mp.setattr(search, "_SEP_MIN_N", qp.n + 1)
+            f_all, x_all, _, frontier_all = search.enumerate_levels(
                 qp, lroot, qp.value(inc), inc, time.perf_counter() + 2.0)
         if frontier_all is not None:
             continue

@@ -9,12 +9,12 @@ import time
 import numpy as np
 import pytest
 
-from basiswise.optimizer.formulation import solve_relaxed
-from basiswise.optimizer.integer_bounds import polish, prepare_root
-from basiswise.optimizer.integer_lattice import lattice_root
-from basiswise.optimizer.integer_native import native_search
-from basiswise.optimizer.integer_search import enumerate_levels
-from basiswise.optimizer.rounding import best_rounded, integer_box
+from basiswise.optimizer.problem.formulation import solve_relaxed
+from basiswise.optimizer.solvers.bounds import polish, prepare_root
+from basiswise.optimizer.solvers.lattice import lattice_root
+from basiswise.optimizer.solvers.native_search import native_search
+from basiswise.optimizer.solvers.rounding import best_rounded, integer_box
+from basiswise.optimizer.solvers.search import enumerate_levels
 from tests.test_integer import brute_force, curve_like_book, random_book
 
 needs_native = pytest.mark.skipif(not native_search(), reason="no compiled search here")
@@ -106,13 +106,13 @@ def test_compiled_search_stops_with_the_same_true_bound():
 
 def test_bundled_source_compiles_into_a_fresh_cache(tmp_path, monkeypatch):
     # the path a source checkout (or an install without the built extension) takes
-    from basiswise.optimizer import integer_native
+    from basiswise.optimizer.solvers import native_search as native
 
     cc = (sysconfig.get_config_var("CC") or "cc").split()[0]
     if shutil.which(cc) is None:
         pytest.skip("no C compiler on this machine")
     monkeypatch.setenv("BASISWISE_CACHE", str(tmp_path))
-    out = integer_native._compile()
+    out = native._compile()
     assert out is not None and out.is_file() and out.parent == tmp_path
     assert list(tmp_path.iterdir()) == [out]  # no temporary file left behind
     import ctypes
@@ -124,7 +124,7 @@ def test_bundled_source_compiles_into_a_fresh_cache(tmp_path, monkeypatch):
 def test_compiled_active_set_equals_the_numpy_loop(monkeypatch):
     # polish (and quick_relaxation) on the same books with both engines: same point, same
     # multipliers; the KKT conditions themselves are checked in test_integer
-    from basiswise.optimizer.integer_bounds import quick_relaxation
+    from basiswise.optimizer.solvers.bounds import quick_relaxation
 
     rng = np.random.default_rng(5150)
     compared = 0
@@ -151,7 +151,7 @@ def test_compiled_active_set_equals_the_numpy_loop(monkeypatch):
 def test_ctrl_c_stops_a_long_compiled_search(monkeypatch):
     # Ctrl-C arrives while the main thread waits for the search thread: the search is told to
     # stop, stops at its next clock check (within 1,024 nodes) and the interrupt goes on
-    from basiswise.optimizer import integer_native
+    from basiswise.optimizer.solvers import native_search as native
 
     rng = np.random.default_rng(2718)
     qp = curve_like_book(rng, 16)
@@ -162,13 +162,13 @@ def test_ctrl_c_stops_a_long_compiled_search(monkeypatch):
         calls.append(worker.name)
         raise KeyboardInterrupt
 
-    monkeypatch.setattr(integer_native, "_wait", interrupted_wait)
-    integer_native.last_interrupt = None
+    monkeypatch.setattr(native, "_wait", interrupted_wait)
+    native.last_interrupt = None
     with pytest.raises(KeyboardInterrupt):
         enumerate_levels(qp, roots[0], qp.value(inc), inc, time.perf_counter() + 600.0,
                          engine="native")
     assert calls == ["basiswise-search"]
-    stopped, nodes = integer_native.last_interrupt
+    stopped, nodes = native.last_interrupt
     assert stopped
     assert nodes < 10**8  # stopped at a clock check, far from the 600 s limit (~10^10 nodes)
 
@@ -177,6 +177,6 @@ def test_ctrl_c_stops_a_long_compiled_search(monkeypatch):
 def test_python_and_c_agree_on_the_problem_layout():
     import ctypes
 
-    from basiswise.optimizer import integer_native
+    from basiswise.optimizer.solvers import native_search as native
 
-    assert integer_native._load().bw_problem_size() == ctypes.sizeof(integer_native._Problem)
+    assert native._load().bw_problem_size() == ctypes.sizeof(native._Problem)

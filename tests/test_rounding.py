@@ -7,9 +7,9 @@ import itertools
 import numpy as np
 import pytest
 
-from basiswise.optimizer.formulation import solve_relaxed
-from basiswise.optimizer.qp import HedgeQP
-from basiswise.optimizer.rounding import best_rounded, integer_box, naive_round
+from basiswise.optimizer.problem.formulation import solve_relaxed
+from basiswise.optimizer.problem.qp import HedgeQP
+from basiswise.optimizer.solvers.rounding import best_rounded, integer_box, naive_round
 from tests.test_integer import random_book
 
 
@@ -65,7 +65,7 @@ def test_best_rounded_returns_none_when_no_point_exists():
 
 def test_all_move_violations_at_once_equal_one_at_a_time():
     # the vectorised violations of every ±1 move against the plain loop over moves
-    from basiswise.optimizer.rounding import _move_violations, _violation
+    from basiswise.optimizer.solvers.rounding import _move_violations, _violation
 
     rng = np.random.default_rng(31)
     for _ in range(40):

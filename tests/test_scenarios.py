@@ -11,8 +11,18 @@ import pytest
 
 from basiswise.data_adapters.book import load_book
 from basiswise.data_adapters.errors import InputError
-from basiswise.optimizer.scenarios import Scenario, apply_scenario, load_scenarios, parse_scenarios
-from basiswise.optimizer.stress import historical_moves, shock_vector, stress_pnl, worst_window
+from basiswise.optimizer.sweeps.scenario_file import (
+    Scenario,
+    apply_scenario,
+    load_scenarios,
+    parse_scenarios,
+)
+from basiswise.optimizer.sweeps.stress import (
+    historical_moves,
+    shock_vector,
+    stress_pnl,
+    worst_window,
+)
 
 DEMO = Path(__file__).resolve().parents[1] / "scenarios" / "demo"
 

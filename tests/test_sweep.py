@@ -12,8 +12,8 @@ from typer.testing import CliRunner
 
 from basiswise.cli.app import app
 from basiswise.data_adapters.book import load_book
-from basiswise.optimizer.scenarios import parse_scenarios
-from basiswise.optimizer.sweep import SweepRunner, run_sweep
+from basiswise.optimizer.sweeps.runner import SweepRunner, run_sweep
+from basiswise.optimizer.sweeps.scenario_file import parse_scenarios
 
 DEMO = Path(__file__).resolve().parents[1] / "scenarios" / "demo"
 SCENARIOS = {

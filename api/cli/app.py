@@ -1,4 +1,4 @@
-"""``basiswise`` command line: a thin typer layer over :mod:`optimizer.api`."""
+"""``basiswise`` command line: a thin typer layer over :mod:`optimizer.pipeline`."""
 
 from __future__ import annotations
 
@@ -108,8 +108,8 @@ def report(
 ) -> None:
     """Solve the book and write the hedge report (Markdown) for the hedge file."""
     from basiswise.data_adapters.output import write_text_atomic
-    from basiswise.optimizer.markdown import to_markdown
     from basiswise.optimizer.pipeline import solve_book
+    from basiswise.optimizer.results.markdown import to_markdown
 
     if method not in ("exact", "round", "continuous"):
         fail(f"unknown method '{method}'; valid: exact, round, continuous")

@@ -91,12 +91,12 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Rolling out-of-sample backtest: each strategy and estimator, ranked by realised
         variance reduction, with hedge-effectiveness evidence."""
-        from basiswise.optimizer.backtest import WHOLE_METHODS, run_backtest
-        from basiswise.optimizer.cautions import CAUTIONS
-        from basiswise.optimizer.covariance import ESTIMATORS
-        from basiswise.optimizer.effectiveness import EVIDENCE_NOTE
+        from basiswise.optimizer.backtest.effectiveness import EVIDENCE_NOTE
+        from basiswise.optimizer.backtest.engine import WHOLE_METHODS, run_backtest
+        from basiswise.optimizer.backtest.strategies import STRATEGIES
+        from basiswise.optimizer.estimation.covariance import ESTIMATORS
         from basiswise.optimizer.pipeline import prepare
-        from basiswise.optimizer.strategies import STRATEGIES
+        from basiswise.optimizer.results.cautions import CAUTIONS
 
         if method not in WHOLE_METHODS:
             fail(f"unknown method '{method}'; valid: {', '.join(WHOLE_METHODS)}")
@@ -109,7 +109,7 @@ def register(app: typer.Typer) -> None:
             task = bar.add_task("rebalances", total=None)
             tick = lambda done, total: bar.update(task, completed=done, total=total)  # noqa: E731
             if workers > 1 and len(ests) > 1:
-                from basiswise.optimizer.backtest_parallel import run_backtest_parallel
+                from basiswise.optimizer.backtest.parallel import run_backtest_parallel
 
                 result = run_backtest_parallel(prep, step=every, strategies=strat,
                                                estimators=ests, method=method,
@@ -119,7 +119,7 @@ def register(app: typer.Typer) -> None:
                 result = run_backtest(prep, step=every, strategies=strat, estimators=ests,
                                       method=method, time_limit=time_limit, progress=tick)
         if png is not None:
-            from basiswise.optimizer.backtest_chart import write_backtest_png
+            from basiswise.optimizer.backtest.chart import write_backtest_png
 
             write_backtest_png(result, png)
         if as_json:

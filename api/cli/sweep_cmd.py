@@ -93,8 +93,8 @@ def _stress_labels(res) -> list[str]:
 
 def _run(book, scenarios, method, workers, scheduler, show_progress):
     from basiswise.data_adapters.book import load_book
-    from basiswise.optimizer.scenarios import load_scenarios
-    from basiswise.optimizer.sweep import default_workers, run_sweep
+    from basiswise.optimizer.sweeps.runner import default_workers, run_sweep
+    from basiswise.optimizer.sweeps.scenario_file import load_scenarios
 
     b = load_book(book)
     ss = load_scenarios(scenarios, b)
@@ -131,7 +131,11 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Solve every scenario of a scenario file and compare residual risk and limits."""
         from basiswise.data_adapters.output import write_csv_atomic
-        from basiswise.optimizer.frontier import frontier_lines, frontier_text, write_frontier_png
+        from basiswise.optimizer.sweeps.frontier import (
+            frontier_lines,
+            frontier_text,
+            write_frontier_png,
+        )
 
         if method not in ("exact", "round", "continuous"):
             fail(f"unknown method '{method}'; valid: exact, round, continuous")

@@ -10,7 +10,7 @@ from rich.panel import Panel
 from rich.table import Table
 
 if TYPE_CHECKING:  # the report module pulls in the solvers; tables only need its shape
-    from basiswise.optimizer.report import HedgeReport
+    from basiswise.optimizer.results.report import HedgeReport
 
 
 def money(v: float | None, cur: str = "", digits: int = 0) -> str:

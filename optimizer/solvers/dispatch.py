@@ -2,7 +2,7 @@
 
 ``exact``
     whole contracts, proven optimal (or time-limited with a true gap) by
-    :func:`optimizer.integer.solve_exact`, warm-started from the best rounded point;
+    :func:`optimizer.solvers.exact.solve_exact`, warm-started from the best rounded point;
 ``round``
     the continuous optimum rounded to whole contracts and repaired to meet the limits, for
     comparison (it can lose much of the hedge when counts are small);
@@ -20,8 +20,8 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from .formulation import FormulationResult, solve_relaxed
-from .qp import HedgeQP
+from ..problem.formulation import FormulationResult, solve_relaxed
+from ..problem.qp import HedgeQP
 
 METHODS = ("exact", "round", "continuous")
 
@@ -80,7 +80,7 @@ def solve_qp(qp: HedgeQP, method: str = "exact", *, time_limit: float = 30.0,
                                  detail="no rounding of the continuous optimum meets the limits")
         return HedgeSolution(method, "rounded", x, qp.value(x), relaxed.objective, relaxed,
                              time.perf_counter() - t0)
-    from .integer import solve_exact
+    from .exact import solve_exact
 
     # the integer search sees the reachable part only; the constant basis-risk share is added back
     r = qp.offset

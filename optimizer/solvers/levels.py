@@ -1,6 +1,6 @@
 """Per-level data of the node bound of the exact search: free centres and separable diagonals.
 
-Once levels ``≥ k`` of the search (:mod:`optimizer.integer_search`) are fixed, the free levels
+Once levels ``≥ k`` of the search (:mod:`optimizer.solvers.search`) are fixed, the free levels
 ``0 … k−1`` contribute exactly ``(y − c)ᵀQ_k(y − c)`` with ``Q_k = R[:k,:k]ᵀR[:k,:k]`` and ``c``
 their free (continuous) minimiser, which moves by ``W_k (y_k − c_k)`` when level ``k`` is fixed.
 For a diagonal ``0 ⪯ D_k ⪯ Q_k``,

@@ -13,7 +13,7 @@ import numpy as np
 
 from basiswise.data_adapters.output import atomic_path
 
-from .backtest import BacktestResult, Run
+from .engine import BacktestResult, Run
 
 
 def chart_runs(result: BacktestResult, limit: int = 4) -> list[Run]:

@@ -1,10 +1,10 @@
 """Exact whole-contract hedge: depth-first enumeration with a certified lower bound.
 
 Minimise ``f(x) = ‖Mx + u‖²`` over integer ``x`` with ``lo ≤ x ≤ hi``, ``Gx ≤ h`` and
-``Σ_j m_j |x_j| ≤ B`` (:class:`optimizer.qp.HedgeQP`).
+``Σ_j m_j |x_j| ≤ B`` (:class:`optimizer.problem.qp.HedgeQP`).
 
 Method (box-constrained integer least squares, Schnorr–Euchner order). The root
-(:mod:`optimizer.integer_bounds`) gives, for every feasible ``x``,
+(:mod:`optimizer.solvers.bounds`) gives, for every feasible ``x``,
 
     f(x) ≥ K + Σ_i φ_i(x_i; x_{i+1}, …, x_{n−1}),
     φ_i = (R_ii δ_i + Σ_{j>i} R_ij δ_j)² + ψ_i(x_i) − ψ̲_i ≥ 0,   δ = x − z,
@@ -18,23 +18,23 @@ is cut to the values that can still meet every row of ``G`` and the margin budge
 cheapest reachable contribution of the variables not yet fixed. At the last level the true
 ``f`` (a convex quadratic in ``x_0``) is minimised directly.
 
-Steps: (1) the relaxation (:func:`optimizer.formulation.solve_relaxed`) is refined by an active-set
-KKT solve (:func:`optimizer.integer_bounds.polish`), whose multipliers give the tighter root bound
-(the solver's own objective can be off by ~1e-7 on curve books); books of up to 24 instruments
-without a margin budget, when no relaxation is passed in, first try that active-set solve alone
-(:func:`optimizer.integer_bounds.quick_relaxation`, accepted only when its KKT conditions check) and
-skip the conic solver; (2) an incumbent from :func:`optimizer.rounding.best_rounded` (books of up to
-12 instruments with finite boxes, when the search is compiled: naive rounding if feasible, else the
-search's own first leaf), or the caller's ``start`` when it is feasible and better; (3) enumeration
-over the contract counts (:mod:`optimizer.integer_search`, compiled when available); (4) for books
-of 3 or more instruments without a margin budget that are not finished after 1 % of the time limit
-(at least 0.1 s), the same enumeration in LLL-reduced coordinates
-(:mod:`optimizer.integer_lattice`), which copes with months that move together. When time runs out
-the bound reported is the best of the root bound and the frontier bounds of the phases (each the
-smallest partial sum of its unexplored subtrees, capped by the incumbent). Problems whose boxes
-cannot be made finite go to SCIP (:func:`optimizer.formulation.solve_scip`, warm-started); its
-answer is then reported against the Lagrangian bound only, so it is never called certified unless
-that bound meets it.
+Steps: (1) the relaxation (:func:`optimizer.problem.formulation.solve_relaxed`) is refined by an
+active-set KKT solve (:func:`optimizer.solvers.bounds.polish`), whose multipliers give the tighter
+root bound (the solver's own objective can be off by ~1e-7 on curve books); books of up to 24
+instruments without a margin budget, when no relaxation is passed in, first try that active-set
+solve alone (:func:`optimizer.solvers.bounds.quick_relaxation`, accepted only when its KKT
+conditions check) and skip the conic solver; (2) an incumbent from
+:func:`optimizer.solvers.rounding.best_rounded` (books of up to 12 instruments with finite boxes,
+when the search is compiled: naive rounding if feasible, else the search's own first leaf), or the
+caller's ``start`` when it is feasible and better; (3) enumeration over the contract counts
+(:mod:`optimizer.solvers.search`, compiled when available); (4) for books of 3 or more instruments
+without a margin budget that are not finished after 1 % of the time limit (at least 0.1 s), the same
+enumeration in LLL-reduced coordinates (:mod:`optimizer.solvers.lattice`), which copes with months
+that move together. When time runs out the bound reported is the best of the root bound and the
+frontier bounds of the phases (each the smallest partial sum of its unexplored subtrees, capped by
+the incumbent). Problems whose boxes cannot be made finite go to SCIP
+(:func:`optimizer.problem.formulation.solve_scip`, warm-started); its answer is then reported
+against the Lagrangian bound only, so it is never called certified unless that bound meets it.
 
 References
 ----------
@@ -54,13 +54,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .formulation import solve_relaxed, solve_scip
-from .integer_bounds import lagrangian_terms, polish, prepare_root, quick_relaxation
-from .integer_lattice import lattice_root
-from .integer_native import native_search
-from .integer_search import enumerate_levels
-from .qp import HedgeQP
+from ..problem.formulation import solve_relaxed, solve_scip
+from ..problem.qp import HedgeQP
+from .bounds import lagrangian_terms, polish, prepare_root, quick_relaxation
+from .lattice import lattice_root
+from .native_search import native_search
 from .rounding import best_rounded, integer_box, naive_round
+from .search import enumerate_levels
 
 __all__ = ["IntegerResult", "solve_exact"]
 
@@ -157,7 +157,7 @@ def solve_exact(qp: HedgeQP, *, time_limit: float = 30.0, relaxed=None, tol: flo
     Notes
     -----
     The math and the search are described in the module docstring and in
-    :mod:`optimizer.integer_bounds`.
+    :mod:`optimizer.solvers.bounds`.
 
     References
     ----------

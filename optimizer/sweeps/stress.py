@@ -29,8 +29,8 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from .changes import horizon_changes
-from .model import book_position
+from ..estimation.changes import horizon_changes
+from ..problem.model import book_position
 
 __all__ = ["HistoricalMoves", "StressPnL", "historical_moves", "shock_vector", "stress_pnl",
            "worst_window"]

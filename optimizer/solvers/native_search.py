@@ -1,11 +1,11 @@
-"""The compiled parts of the exact solver (``optimizer/native/*.c``): loading and calling them.
+"""The compiled parts of the exact solver (``solvers/native/*.c``): loading and calling them.
 
-``levels.c`` is the twin of the pure-Python search in :mod:`optimizer.integer_search` — the same
+``levels.c`` is the twin of the pure-Python search in :mod:`optimizer.solvers.search` — the same
 levels, bounds and visiting order — and runs the desk-scale searches some 50–100 times faster;
-``active_set.c`` is the twin of the active-set loop of :func:`optimizer.integer_bounds.polish`.
+``active_set.c`` is the twin of the active-set loop of :func:`optimizer.solvers.bounds.polish`.
 They are found, in order:
 
-1. as the extension module ``optimizer.native._levels`` that ``pip install`` builds;
+1. as the extension module ``optimizer.solvers.native._levels`` that ``pip install`` builds;
 2. compiled on first use from the bundled C source with the machine's C compiler into a cache
    folder (``$BASISWISE_CACHE`` or ``~/.cache/basiswise``), for a source checkout;
 3. otherwise not at all: the pure-Python search runs (same answers, slower).
@@ -219,7 +219,7 @@ def run_native(prep: dict, best_f: float, time_limit: float):
 
 def run_active_set(A2: np.ndarray, b2: np.ndarray, C: np.ndarray, d: np.ndarray,
                    scale: np.ndarray, active: list[int], max_iter: int):
-    """The compiled active-set loop of :func:`optimizer.integer_bounds.polish`.
+    """The compiled active-set loop of :func:`optimizer.solvers.bounds.polish`.
 
     Returns ``(x, mult)`` (multipliers per row of ``C``, negative ones set to 0), or ``None``
     when a working set's system is singular (the caller then runs the numpy loop).

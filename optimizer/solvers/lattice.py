@@ -8,7 +8,7 @@ Lovász 1982) gives a ``T`` with ``M T`` closer to orthogonal, and enumeration o
 much smaller.
 
 The box ``lo ≤ x ≤ hi`` is not a box in ``y``; it becomes the rows ``T y ≤ hi``, ``−T y ≤ −lo``,
-joined by ``G T y ≤ h``. The separable Lagrangian of :mod:`optimizer.integer_bounds` is not
+joined by ``G T y ≤ h``. The separable Lagrangian of :mod:`optimizer.solvers.bounds` is not
 separable in ``y``, so here the bound is the quadratic Lagrangian with the box multipliers
 ``ν_lo, ν_hi ≥ 0`` and row multipliers ``λ ≥ 0``:
 
@@ -33,8 +33,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .integer_bounds import RootData, _inverse_diag, search_order
-from .qp import HedgeQP
+from ..problem.qp import HedgeQP
+from .bounds import RootData, _inverse_diag, search_order
 
 __all__ = ["lll_reduce", "lattice_root"]
 

@@ -1,6 +1,6 @@
 """Rounding a continuous hedge to whole contracts: the naive rule and a repaired greedy one.
 
-Both work on the normalised problem of :mod:`optimizer.qp`, ``f(n) = nᵀAn + 2bᵀn + c``.
+Both work on the normalised problem of :mod:`optimizer.problem.qp`, ``f(n) = nᵀAn + 2bᵀn + c``.
 
 * :func:`naive_round` takes the nearest integer of each relaxed position and clips it into the
   integer box ``[⌈lo⌉, ⌊hi⌋]``. It ignores group limits and the margin budget; it is the baseline
@@ -13,7 +13,7 @@ Both work on the normalised problem of :mod:`optimizer.qp`, ``f(n) = nᵀAn + 2b
   The change of ``f`` under ``n → n + s e_j`` is
   ``2 s (An + b)_j + A_jj``, so each move is evaluated for all ``j`` at once.
 
-It is a heuristic (an incumbent for :mod:`optimizer.integer`), never a claim of optimality.
+It is a heuristic (an incumbent for :mod:`optimizer.solvers.exact`), never a claim of optimality.
 
 References
 ----------
@@ -25,7 +25,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .qp import HedgeQP
+from ..problem.qp import HedgeQP
 
 __all__ = ["integer_box", "naive_round", "best_rounded"]
 

@@ -1,6 +1,7 @@
 """The hedge problem as a cvxpy problem, built once with Parameters and re-solved fast.
 
-The problem of :mod:`optimizer.qp` is written in disciplined parametrized programming (DPP) form::
+The problem of :mod:`optimizer.problem.qp` is written in disciplined parametrized programming
+(DPP) form::
 
     minimise    ‖M n + u‖²
     subject to  n_j ≥ lo_j        (finite lower bounds only)

@@ -30,8 +30,8 @@ from basiswise.data_adapters.book import Book
 from basiswise.data_adapters.errors import InputError
 from basiswise.data_adapters.units import units_in_price_unit
 
-from .changes import Changes, dollar_covariance
-from .covariance import CovarianceEstimate
+from ..estimation.changes import Changes, dollar_covariance
+from ..estimation.covariance import CovarianceEstimate
 from .qp import HedgeQP
 
 

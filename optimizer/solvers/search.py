@@ -1,7 +1,7 @@
 """Depth-first Schnorr–Euchner enumeration over prepared levels, with a true frontier bound.
 
-The levels come from :func:`optimizer.integer_bounds.prepare_root` (levels are the contract counts,
-permuted) or :func:`optimizer.integer_lattice.lattice_root` (levels are LLL coordinates ``y`` with
+The levels come from :func:`optimizer.solvers.bounds.prepare_root` (levels are the contract counts,
+permuted) or :func:`optimizer.solvers.lattice.lattice_root` (levels are LLL coordinates ``y`` with
 ``x = X y``). For every feasible ``x`` on the levels,
 
     f(x) ≥ K + Σ_i φ_i,   φ_i = (R_ii δ_i + Σ_{j>i} R_ij δ_j)² + ψ_i(y_i) − ψ̲_i ≥ 0,   δ = y − z,
@@ -21,12 +21,12 @@ is the smallest lower bound of the unexplored subtrees (the values not yet enter
 of the current path, and the node being entered).
 
 On lattice levels a separable integrality bound on the free levels below a node is added
-(:mod:`optimizer.integer_levels`): a node is pruned when its partial sum plus that bound reaches
+(:mod:`optimizer.solvers.levels`): a node is pruned when its partial sum plus that bound reaches
 the incumbent.
 
-Two engines run this search: the compiled twin ``optimizer/native/levels.c``
-(:mod:`optimizer.integer_native`, used when available) and the plain Python below, kept as the
-reference that the tests compare it with — same arrays (:func:`prepare_levels`), same visiting
+Two engines run this search: the compiled twin ``optimizer/solvers/native/levels.c``
+(:mod:`optimizer.solvers.native_search`, used when available) and the plain Python below, kept as
+the reference that the tests compare it with — same arrays (:func:`prepare_levels`), same visiting
 order, same node counts.
 
 References
@@ -47,9 +47,9 @@ import time
 
 import numpy as np
 
-from .integer_levels import level_diagonals
-from .integer_native import native_search, run_native
-from .qp import HedgeQP
+from ..problem.qp import HedgeQP
+from .levels import level_diagonals
+from .native_search import native_search, run_native
 
 __all__ = ["enumerate_levels", "prepare_levels", "level_diagonals"]
 
@@ -141,7 +141,7 @@ def enumerate_levels(qp: HedgeQP, root, best_f: float, best_x, deadline: float, 
     Returns ``(best_f, best_x, nodes, frontier)``: ``frontier`` is ``None`` when the search
     finished, else a lower bound on every point not yet excluded. ``best_x`` is in the original
     coordinates (``None`` if no feasible point is known). ``engine`` is ``"native"`` (the
-    compiled twin, :mod:`optimizer.integer_native`), ``"python"`` or ``None`` (native when
+    compiled twin, :mod:`optimizer.solvers.native_search`), ``"python"`` or ``None`` (native when
     available).
     """
     prep = prepare_levels(qp, root, node_bounds=node_bounds, best_f=best_f)

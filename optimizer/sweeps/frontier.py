@@ -40,7 +40,7 @@ class FrontierLine:
 
 
 def frontier_lines(results) -> list[FrontierLine]:
-    """Group scenario results (:class:`optimizer.sweep.ScenarioResult`) into frontier lines."""
+    """Group scenario results (:class:`.runner.ScenarioResult`) into frontier lines."""
     groups: dict[str, list] = {}
     for r in results:
         if r.limit_scale is not None:

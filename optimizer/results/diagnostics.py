@@ -23,8 +23,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.stats import norm
 
-from .model import HedgeModel
-from .solve import HedgeSolution
+from ..problem.model import HedgeModel
+from ..solvers.dispatch import HedgeSolution
 
 Z95, Z99 = float(norm.ppf(0.95)), float(norm.ppf(0.99))
 DUAL_TOL = 1e-7

@@ -1,7 +1,8 @@
 """Root of the exact integer search: a Lagrangian lower bound, finite boxes and a variable order.
 
 For multipliers ``λ ≥ 0`` (rows ``G n ≤ h``) and ``μ ≥ 0`` (margin budget) and any point ``z``, the
-Lagrangian of the hedge problem of :mod:`optimizer.qp` is, with ``δ = x − z`` and ``g = Az + b``,
+Lagrangian of the hedge problem of :mod:`optimizer.problem.qp` is, with ``δ = x − z`` and ``g = Az +
+b``,
 
     L(x) = f(x) + λᵀ(Gx − h) + μ(mᵀ|x| − B)
          = K₀ + δᵀAδ + Σ_j ψ_j(x_j),
@@ -46,8 +47,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.linalg.lapack import dtrtri
 
-from .integer_native import native_search, run_active_set
-from .qp import HedgeQP
+from ..problem.qp import HedgeQP
+from .native_search import native_search, run_active_set
 
 __all__ = ["RootData", "lagrangian_terms", "finite_box", "search_order", "prepare_root", "polish",
            "quick_relaxation"]

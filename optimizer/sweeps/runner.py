@@ -36,16 +36,16 @@ import numpy as np
 from basiswise.data_adapters.book import Book, Constraints, load_book
 from basiswise.data_adapters.errors import InputError
 
-from .cautions import CAUTIONS
-from .changes import horizon_changes
-from .conflicts import limit_conflicts
-from .covariance import estimate_covariance
-from .jsonsafe import finite
-from .model import HedgeModel, build_hedge_model, with_limits
-from .pipeline import prepare
-from .report import build_report
-from .scenarios import Scenario, ScenarioSet, apply_scenario
-from .solve import METHODS, solve_qp
+from ..estimation.changes import horizon_changes
+from ..estimation.covariance import estimate_covariance
+from ..pipeline import prepare
+from ..problem.conflicts import limit_conflicts
+from ..problem.model import HedgeModel, build_hedge_model, with_limits
+from ..results.cautions import CAUTIONS
+from ..results.jsonsafe import finite
+from ..results.report import build_report
+from ..solvers.dispatch import METHODS, solve_qp
+from .scenario_file import Scenario, ScenarioSet, apply_scenario
 from .stress import historical_moves, shock_vector, stress_pnl, worst_window
 
 __all__ = ["ScenarioResult", "SweepResult", "SweepRunner", "run_sweep"]

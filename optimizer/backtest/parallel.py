@@ -1,9 +1,9 @@
 """The backtest grid on several local processes: one job per estimator, results merged.
 
 Each estimator's runs are independent of the others', so :func:`run_backtest_parallel` runs
-:func:`optimizer.backtest.run_backtest` for one estimator per job (the estimator-free strategies
-ride with the first job) and merges the runs into one :class:`BacktestResult`, identical to the
-serial one but for the wall time.
+:func:`optimizer.backtest.engine.run_backtest` for one estimator per job (the estimator-free
+strategies ride with the first job) and merges the runs into one :class:`BacktestResult`, identical
+to the serial one but for the wall time.
 """
 
 from __future__ import annotations
@@ -17,7 +17,7 @@ from pathlib import Path
 
 from basiswise.data_adapters.book import Book
 
-from .backtest import BacktestResult, run_backtest
+from .engine import BacktestResult, run_backtest
 from .strategies import ESTIMATOR_FREE, STRATEGIES
 
 

@@ -1,7 +1,7 @@
 """Hedging strategies compared by the backtest, as plain array math.
 
-Notation as in :mod:`optimizer.model`: ``E`` (exposures × k) and ``C`` (instruments × k) load the
-exposures and one contract of each instrument on the ``k`` price series (price units of
+Notation as in :mod:`optimizer.problem.model`: ``E`` (exposures × k) and ``C`` (instruments × k)
+load the exposures and one contract of each instrument on the ``k`` price series (price units of
 quantity), ``Σ$`` is the covariance of horizon price moves in (currency / price unit)², and the
 book's horizon P&L with positions ``n`` is ``dV = (Eᵀ1 + Cᵀn)ᵀ dP``.
 
@@ -24,7 +24,7 @@ Strategies (names are the ``--strategies`` values of ``basiswise backtest``):
     the same in whole contracts (method ``exact`` or ``round``).
 
 The first three ignore the book's position, liquidity and margin limits, as the textbook rules do;
-the joint strategies are solved by :mod:`optimizer.backtest` through the hedge problem.
+the joint strategies are solved by :mod:`optimizer.backtest.engine` through the hedge problem.
 
 References
 ----------
@@ -44,7 +44,7 @@ from basiswise.data_adapters.book import Book
 from basiswise.data_adapters.errors import InputError
 from basiswise.data_adapters.units import units_in_price_unit
 
-from .model import book_position
+from ..problem.model import book_position
 
 STRATEGIES = ("unhedged", "one-to-one", "single-mv", "joint-continuous", "joint-whole")
 #: strategies whose positions do not depend on the covariance estimator

@@ -14,6 +14,8 @@ from dataclasses import asdict, dataclass, field
 import numpy as np
 import pandas as pd
 
+from ..problem.model import HedgeModel
+from ..solvers.dispatch import HedgeSolution
 from .cautions import CAUTIONS, SAMPLING_NOTES
 from .diagnostics import (
     Z95,
@@ -26,8 +28,6 @@ from .diagnostics import (
     limit_lines,
 )
 from .jsonsafe import finite
-from .model import HedgeModel
-from .solve import HedgeSolution
 
 
 @dataclass(frozen=True)

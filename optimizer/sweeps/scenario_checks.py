@@ -8,8 +8,8 @@ from typing import Any
 from basiswise.data_adapters.book import Book
 from basiswise.data_adapters.errors import InputError
 
-from .changes import SAMPLINGS
-from .covariance import ESTIMATORS
+from ..estimation.changes import SAMPLINGS
+from ..estimation.covariance import ESTIMATORS
 
 _SCALES = ("limit_scale", "adv_scale", "participation_scale", "margin_scale")
 _FLOATS = (*_SCALES, "participation", "margin_budget")

@@ -44,15 +44,15 @@ import pandas as pd
 from basiswise.data_adapters.book import Book
 from basiswise.data_adapters.errors import InputError
 
-from .cautions import CAUTIONS
-from .changes import dollar_covariance, horizon_changes
-from .covariance import ESTIMATORS, estimate_covariance
+from ..estimation.changes import dollar_covariance, horizon_changes
+from ..estimation.covariance import ESTIMATORS, estimate_covariance
+from ..pipeline import Prepared, prepare
+from ..problem.model import build_hedge_model, loadings
+from ..problem.qp import HedgeQP
+from ..results.cautions import CAUTIONS
+from ..results.jsonsafe import finite
+from ..solvers.dispatch import solve_qp
 from .effectiveness import EVIDENCE_NOTE, Effectiveness, effectiveness_by_group
-from .jsonsafe import finite
-from .model import build_hedge_model, loadings
-from .pipeline import Prepared, prepare
-from .qp import HedgeQP
-from .solve import solve_qp
 from .strategies import (
     ESTIMATOR_FREE,
     STRATEGIES,

@@ -37,7 +37,7 @@ Scenario keys (a scenario changes only what it names):
 ``margin_scale``         multiply every initial margin per contract (> 0)
 ``horizon_days``         hedge horizon (business days, ≥ 1)
 ``window``               estimation window (price rows, ≥ 2)
-``estimator``            covariance estimator (see :data:`optimizer.covariance.ESTIMATORS`)
+``estimator``            covariance estimator (:data:`optimizer.estimation.covariance.ESTIMATORS`)
 ``sampling``             horizon sampling (overlapping, non-overlapping, scaled)
 ``shock_pct``            ``{ SERIES = pct }``: price moves in percent of today's price
                          (> −100) for the stress P&L
