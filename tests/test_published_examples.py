@@ -7,7 +7,8 @@ import pandas as pd
 import pytest
 
 from basiswise.optimizer.pipeline import model_of, prepare, solve_book, solve_model
-from tests.helpers import book_dict, changes_with_moments, make_book, write_wide
+
+from bw_testkit import book_dict, changes_with_moments, make_book, write_wide
 
 
 def _single_cross_hedge_book(tmp_path):

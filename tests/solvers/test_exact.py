@@ -13,54 +13,14 @@ from basiswise.optimizer.problem.qp import HedgeQP
 from basiswise.optimizer.solvers.exact import solve_exact
 from basiswise.optimizer.solvers.rounding import naive_round
 
-
-def random_book(rng: np.random.Generator) -> HedgeQP:
-    """Small random book: correlated columns, small boxes, sometimes group rows / margin budget."""
-    n = int(rng.integers(2, 6))
-    k = n + int(rng.integers(-1, 3))  # k < n gives a singular A (more futures than series)
-    base = rng.normal(size=(k, 1))
-    M = (0.8 * base + rng.normal(size=(k, n))) * rng.uniform(0.1, 1.5)
-    u = rng.normal(size=k)
-    u /= np.linalg.norm(u)
-    width = rng.integers(1, 4, size=n).astype(float)
-    lo, hi = -width, width.copy()
-    if rng.random() < 0.3:  # one-sided and shifted boxes
-        lo[0], hi[0] = float(rng.integers(-1, 2)), float(rng.integers(2, 4))
-    G, h = np.zeros((0, n)), np.zeros(0)
-    if rng.random() < 0.4:  # a group limit on two or three instruments, both signs
-        idx = rng.choice(n, size=min(n, int(rng.integers(2, 4))), replace=False)
-        row = np.zeros(n)
-        row[idx] = 1.0
-        lim = float(rng.integers(0, 3))
-        G, h = np.vstack([row, -row]), np.array([lim, lim])
-    margin, budget = None, None
-    if rng.random() < 0.4:
-        margin = rng.integers(1, 4, size=n).astype(float)
-        budget = float(rng.integers(0, 9))
-    if rng.random() < 0.08:  # contradictory: x0 >= 2 but x0 <= 1
-        lo[0], hi[0] = 2.0, 3.0
-        G, h = np.vstack([G, np.eye(n)[0]]), np.append(h, 1.0)
-    return HedgeQP(M=M, u=u, lo=lo, hi=hi, G=G, h=h, margin=margin, margin_budget=budget)
-
-
-def brute_force(qp: HedgeQP):
-    """All integer points of the box; returns (best value, all minimisers) or (inf, [])."""
-    ranges = [range(int(a), int(b) + 1) for a, b in zip(qp.lo, qp.hi, strict=True)]
-    pts = np.array(list(itertools.product(*ranges)), dtype=float)
-    ok = np.array([qp.is_feasible(x) for x in pts], dtype=bool)
-    if not ok.any():
-        return np.inf, []
-    r = pts[ok] @ qp.M.T + qp.u
-    vals = np.einsum("ij,ij->i", r, r)
-    best = vals.min()
-    return float(best), [pts[ok][i] for i in np.flatnonzero(vals <= best + 1e-12)]
+from bw_testkit import brute_force, curve_like_qp, random_qp
 
 
 def test_exact_equals_brute_force_on_random_small_books():
     rng = np.random.default_rng(20240611)
     counts = {"certified": 0, "infeasible": 0, "rows": 0, "margin": 0, "binding": 0}
     for _ in range(220):
-        qp = random_book(rng)
+        qp = random_qp(rng)
         # reference: exhaustive enumeration, exact by construction
         best, argmins = brute_force(qp)
         res = solve_exact(qp, time_limit=20.0)
@@ -88,7 +48,7 @@ def test_exact_equals_brute_force_on_random_small_books():
 def test_bound_is_between_relaxation_and_objective():
     rng = np.random.default_rng(7)
     for _ in range(40):
-        qp = random_book(rng)
+        qp = random_qp(rng)
         rel = solve_relaxed(qp)
         res = solve_exact(qp, relaxed=rel)
         if res.status == "infeasible" or rel.x is None:
@@ -178,7 +138,7 @@ def test_lattice_levels_equal_brute_force():
     rng = np.random.default_rng(99)
     checked = 0
     for _ in range(80):
-        qp = random_book(rng)
+        qp = random_qp(rng)
         if qp.margin_budget is not None:
             continue
         rel = solve_relaxed(qp)
@@ -208,7 +168,7 @@ def test_start_point_is_used_only_when_feasible_and_never_changes_the_optimum():
     rng = np.random.default_rng(41)
     checked = 0
     for _ in range(60):
-        qp = random_book(rng)
+        qp = random_qp(rng)
         best, _ = brute_force(qp)
         if not np.isfinite(best):
             continue
@@ -262,7 +222,7 @@ def test_polish_stopped_by_its_iteration_cap_still_returns_consistent_multiplier
 
     rng = np.random.default_rng(5)
     for _ in range(30):
-        qp = random_book(rng)
+        qp = random_qp(rng)
         if qp.margin_budget is not None:
             continue
         rel = solve_relaxed(qp)
@@ -326,17 +286,6 @@ def test_separable_integrality_bound_never_exceeds_brute_force_minimum():
     assert checked >= 150
 
 
-def curve_like_book(rng: np.random.Generator, n: int = 16) -> HedgeQP:
-    """Months that move almost together (level, slope, curvature factors), counts of a few."""
-    k = n + 4
-    t = np.linspace(0.0, 1.0, n)
-    F = rng.normal(size=(k, 3))
-    M = 0.3 * (np.outer(F[:, 0], np.ones(n)) + 0.3 * np.outer(F[:, 1], t - 0.5)
-               + 0.2 * np.outer(F[:, 2], (t - 0.5) ** 2) + 0.03 * rng.normal(size=(k, n)))
-    u = -M @ rng.uniform(-3, 3, size=n) + 0.02 * rng.normal(size=k)
-    return HedgeQP(M=M, u=u, lo=np.full(n, -4.0), hi=np.full(n, 4.0))
-
-
 def test_interrupted_lattice_search_reports_a_true_bound(monkeypatch):
     # the frontier of a lattice search stopped after 1024 nodes (deadline already passed, so
     # the stop is deterministic) never exceeds the optimum found without the separable bound
@@ -349,7 +298,7 @@ def test_interrupted_lattice_search_reports_a_true_bound(monkeypatch):
     rng = np.random.default_rng(2718)
     stopped = finished = 0
     for _ in range(10):
-        qp = curve_like_book(rng, 12)
+        qp = curve_like_qp(rng, 12)
         n = qp.n
         rel = solve_relaxed(qp)
         lo, hi = integer_box(qp)

@@ -3,8 +3,6 @@
 from __future__ import annotations
 
 import json
-import shutil
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -15,7 +13,8 @@ from basiswise.data_adapters.book import load_book
 from basiswise.optimizer.sweeps.runner import SweepRunner, run_sweep
 from basiswise.optimizer.sweeps.scenario_file import parse_scenarios
 
-DEMO = Path(__file__).resolve().parents[1] / "scenarios" / "demo"
+from bw_testkit import DEMO_FILES, copy_demo
+
 SCENARIOS = {
     "defaults": {"replay_worst": "unhedged"},
     "scenario": [
@@ -37,11 +36,8 @@ SCENARIOS = {
 
 @pytest.fixture(scope="module")
 def demo(tmp_path_factory):
-    folder = tmp_path_factory.mktemp("sweep")
-    for name in ("book.toml", "prices.csv", "limit_cuts.toml"):
-        shutil.copyfile(DEMO / name, folder / name)
-    book = load_book(folder / "book.toml")
-    return folder / "book.toml", parse_scenarios(SCENARIOS, book, "test.toml")
+    path = copy_demo(tmp_path_factory.mktemp("sweep"), (*DEMO_FILES, "limit_cuts.toml"))
+    return path, parse_scenarios(SCENARIOS, load_book(path), "test.toml")
 
 
 @pytest.fixture(scope="module")

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -23,8 +22,9 @@ from basiswise.optimizer.sweeps.stress import (
     stress_pnl,
     worst_window,
 )
+from basiswise.scenarios import demo_book_path
 
-DEMO = Path(__file__).resolve().parents[1] / "scenarios" / "demo"
+DEMO = demo_book_path().parent
 
 
 @pytest.fixture(scope="module")

@@ -15,7 +15,8 @@ from basiswise.optimizer.solvers.lattice import lattice_root
 from basiswise.optimizer.solvers.native_search import native_search
 from basiswise.optimizer.solvers.rounding import best_rounded, integer_box
 from basiswise.optimizer.solvers.search import enumerate_levels
-from tests.test_integer import brute_force, curve_like_book, random_book
+
+from bw_testkit import brute_force, curve_like_qp, random_qp
 
 needs_native = pytest.mark.skipif(not native_search(), reason="no compiled search here")
 
@@ -64,7 +65,7 @@ def test_compiled_search_equals_python_search_node_for_node():
     compared = 0
     for k in range(70):
         small = k % 3 != 0
-        qp = random_book(rng) if small else curve_like_book(rng, 6)
+        qp = random_qp(rng) if small else curve_like_qp(rng, 6)
         inc, roots = _roots(qp)
         # source: exhaustive enumeration of every integer point, exact by construction
         best = brute_force(qp)[0] if small and roots else None
@@ -87,7 +88,7 @@ def test_compiled_search_stops_with_the_same_true_bound():
     rng = np.random.default_rng(77)
     stopped = 0
     for _ in range(8):
-        qp = curve_like_book(rng, 12)
+        qp = curve_like_qp(rng, 12)
         inc, roots = _roots(qp)
         for root in roots:
             f0 = qp.value(inc)
@@ -129,7 +130,7 @@ def test_compiled_active_set_equals_the_numpy_loop(monkeypatch):
     rng = np.random.default_rng(5150)
     compared = 0
     for k in range(60):
-        qp = random_book(rng) if k % 2 else curve_like_book(rng, 8)
+        qp = random_qp(rng) if k % 2 else curve_like_qp(rng, 8)
         if qp.margin_budget is not None:
             continue
         nat = quick_relaxation(qp)
@@ -154,7 +155,7 @@ def test_ctrl_c_stops_a_long_compiled_search(monkeypatch):
     from basiswise.optimizer.solvers import native_search as native
 
     rng = np.random.default_rng(2718)
-    qp = curve_like_book(rng, 16)
+    qp = curve_like_qp(rng, 16)
     inc, roots = _roots(qp)
     calls = []
 

@@ -2,13 +2,12 @@
 
 from __future__ import annotations
 
-import itertools
-
 import numpy as np
 import pytest
 
 from basiswise.optimizer.pipeline import model_of, prepare, solve_model
-from tests.helpers import book_dict, make_book, write_wide
+
+from bw_testkit import book_dict, brute_force, make_book, write_wide
 
 
 def _random_book(tmp_path, seed: int):
@@ -45,28 +44,15 @@ def _random_book(tmp_path, seed: int):
     return make_book(tmp_path, data)
 
 
-def _brute_force(model):
-    qp = model.qp
-    ranges = [range(int(lo), int(hi) + 1) for lo, hi in zip(qp.lo, qp.hi, strict=True)]
-    best, arg = np.inf, None
-    for x in itertools.product(*ranges):
-        x = np.array(x, dtype=float)
-        if qp.is_feasible(x):
-            v = model.variance(x)
-            if v < best - 1e-9:
-                best, arg = v, x
-    return best, arg
-
-
 @pytest.mark.parametrize("seed", range(60))
 def test_exact_equals_enumeration_on_random_books(tmp_path, seed):
     book = _random_book(tmp_path, seed)
     model = model_of(prepare(book))
     report = solve_model(model, "exact")
-    best, arg = _brute_force(model)
-    # reference: exhaustive enumeration of every whole-contract position in the box, exact by
-    # construction
-    if arg is None:
+    # reference: exhaustive enumeration of every whole-contract position in the box, scored by the
+    # model's variance in currency², exact by construction
+    best, minimisers = brute_force(model.qp, model.variance)
+    if not minimisers:
         assert not report.ok
         return
     assert report.status == "certified"

@@ -26,7 +26,8 @@ from basiswise.optimizer.estimation.covariance import ESTIMATORS
 from basiswise.optimizer.pipeline import prepare
 from basiswise.optimizer.problem.model import loadings
 from basiswise.optimizer.problem.qp import HedgeQP
-from tests.helpers import book_dict, make_book, write_wide
+
+from bw_testkit import book_dict, make_book, write_wide
 
 SERIES = {"spot_a": "USD/gal", "spot_b": "USD/gal", "fut_a": "USD/gal", "fut_b": "USD/bbl"}
 

@@ -20,7 +20,8 @@ from basiswise.optimizer.backtest.effectiveness import (
     effectiveness_by_group,
     regression_test,
 )
-from tests.helpers import book_dict, make_book
+
+from bw_testkit import book_dict, make_book
 
 
 def _pnl(seed: int, n: int = 60, noise: float = 0.3):

@@ -10,6 +10,8 @@ from basiswise.data_adapters.errors import InputError
 from basiswise.optimizer.pipeline import model_of, prepare, solve_model
 from basiswise.scenarios import demo_book_path
 
+from bw_testkit import copy_demo
+
 
 def _book(**constraints):
     book = load_book(demo_book_path())
@@ -68,16 +70,11 @@ def test_conflicting_limits_name_the_instrument():
 
 
 def test_infeasible_book_names_the_conflict_and_writes_nothing(tmp_path):
-    import shutil
-
     from typer.testing import CliRunner
 
     from basiswise.cli.app import app
 
-    src = demo_book_path().parent
-    for name in ("book.toml", "prices.csv"):
-        shutil.copyfile(src / name, tmp_path / name)
-    book_path = tmp_path / "book.toml"
+    book_path = copy_demo(tmp_path)
     text = book_path.read_text()
     start = text.index('id = "NATGAS-F1"')
     line = text.index("position_limit", start)
