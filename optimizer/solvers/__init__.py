@@ -1,1 +1,1 @@
-"""Solvers: the relaxation, rounding, and the exact whole-contract search with its bounds."""
+"""Solvers: the method switch, rounding, and the exact whole-contract search with its bounds."""
