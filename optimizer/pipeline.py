@@ -1,6 +1,6 @@
 """The Python entry points a notebook user calls; the command line is a thin layer over these.
 
->>> from optimizer.api import solve_book
+>>> from basiswise.optimizer.pipeline import solve_book
 >>> report = solve_book("scenarios/demo/book.toml", method="exact")   # doctest: +SKIP
 >>> report.hedged_std, report.trade_list()                             # doctest: +SKIP
 """
