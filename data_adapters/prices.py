@@ -48,19 +48,27 @@ class PricePanel:
     ----------
     prices : pandas.DataFrame
         Sorted, unique ``DatetimeIndex``; one float column per series id, in the order asked for;
-        every value finite.
+        every value finite. Rolled generic months are back-adjusted with every roll in the file.
     source : Path
         The file read.
     dropped_rows : int
         Dates dropped by alignment (some needed series had no price that day).
     file_rows : pandas.DataFrame
         Same shape as ``prices``: the file row each price came from (for error messages).
+    held, pnl : pandas.DataFrame, optional
+        Rolled books: the real price of the contract held on each date, and levels whose changes
+        are the held contracts' P&L (difference-adjusted); ``None`` means equal to ``prices``.
+    adjust : str
+        The back-adjustment of ``prices``: ``"ratio"``, ``"difference"`` or ``"none"``.
     """
 
     prices: pd.DataFrame
     source: Path
     dropped_rows: int
     file_rows: pd.DataFrame = field(repr=False, compare=False, default=None)
+    held: pd.DataFrame | None = field(repr=False, compare=False, default=None)
+    pnl: pd.DataFrame | None = field(repr=False, compare=False, default=None)
+    adjust: str = "none"
 
     @property
     def first_date(self) -> pd.Timestamp:
@@ -71,6 +79,26 @@ class PricePanel:
     def last_date(self) -> pd.Timestamp:
         """Last aligned date."""
         return self.prices.index[-1]
+
+    @property
+    def pnl_levels(self) -> pd.DataFrame:
+        """Levels whose differences are the P&L of the positions held (price units)."""
+        return self.prices if self.pnl is None else self.pnl
+
+    def as_of(self, end: int, start: int = 0) -> pd.DataFrame:
+        """Rows ``start..end`` (positions) of ``prices`` as known on row ``end``'s date.
+
+        Back-adjusted with the rolls up to that date only (as if the file were cut there), so
+        row ``end`` is the real price ``h`` of the contract then held. From the levels ``A``
+        adjusted with every roll: ratio ``A_t × h / A_end``, difference ``A_t − A_end + h``.
+        """
+        levels = self.prices.iloc[start:end + 1]
+        if self.held is None or self.adjust == "none":
+            return levels
+        a, now = levels.to_numpy(dtype=float), self.held.iloc[end].to_numpy(dtype=float)
+        out = a * (now / a[-1]) if self.adjust == "ratio" else a + (now - a[-1])
+        out[-1] = now
+        return pd.DataFrame(out, index=levels.index, columns=levels.columns)
 
 
 # --------------------------------------------------------------------------- readers

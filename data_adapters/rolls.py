@@ -121,7 +121,8 @@ def _contract_prices(prices, contracts, date_column, contract_column, price_colu
 
 
 def _one_product(long, table, product, months, roll_days, adjust, files):
-    """Generic months 1..``months`` of one product: (prices, file rows), both date × month."""
+    """Generic months 1..``months`` of one product, each date × month: adjusted prices, file
+    rows, the held contract's real price and the difference-adjusted (P&L) levels."""
     prices_file, expiries_file = files
     listed = table.loc[table["product"] == product]
     if listed.empty:
@@ -150,32 +151,42 @@ def _one_product(long, table, product, months, roll_days, adjust, files):
         )
     p, r = level.to_numpy(), rows.to_numpy()
     t = np.arange(len(dates))
-    out_p, out_r = {}, {}
+    out = {}, {}, {}, {}  # adjusted levels, file rows, held contract's price, P&L levels
     for k in range(1, months + 1):
         held = first + k - 1
         raw = p[t, held]
         _need(raw, dates, names, held, product, k, "", prices_file)
-        adjusted = raw.copy()
-        if adjust != "none" and len(dates) > 1:
-            switch = np.flatnonzero(held[1:] != held[:-1]) + 1  # first date on the new contract
-            new_before = p[switch - 1, held[switch]]  # new contract at the roll date's close
-            _need(new_before, dates[switch - 1], names, held[switch], product, k,
-                  " at the roll", prices_file)
-            old_before = raw[switch - 1]
-            # step[j] links date j (a roll date) to j + 1; older history takes every later step
-            if adjust == "ratio":
-                _positive(np.concatenate([raw, new_before]), np.concatenate([
-                    r[t, held], r[switch - 1, held[switch]]]), product, k, prices_file)
-                step = np.ones(len(dates))
-                step[switch - 1] = new_before / old_before
-                adjusted = raw * np.cumprod(step[::-1])[::-1]
-            else:
-                step = np.zeros(len(dates))
-                step[switch - 1] = new_before - old_before
-                adjusted = raw + np.cumsum(step[::-1])[::-1]
-        out_p[f"{product}_m{k}"] = adjusted
-        out_r[f"{product}_m{k}"] = r[t, held]
-    return pd.DataFrame(out_p, index=dates), pd.DataFrame(out_r, index=dates)
+        name = f"{product}_m{k}"
+        out[0][name], out[3][name] = _adjusted(raw, p, r, held, adjust, dates, names,
+                                               (product, k, prices_file))
+        out[1][name], out[2][name] = r[t, held], raw
+    return tuple(pd.DataFrame(o, index=dates) for o in out)
+
+
+def _adjusted(raw, p, r, held, adjust, dates, names, where):
+    """Levels back-adjusted by ``adjust`` and by differences (the P&L levels) of one month."""
+    product, k, prices_file = where
+    if len(dates) < 2:
+        return raw.copy(), raw.copy()
+    switch = np.flatnonzero(held[1:] != held[:-1]) + 1  # first date on the new contract
+    new_before = p[switch - 1, held[switch]]  # new contract at the roll date's close
+    _need(new_before, dates[switch - 1], names, held[switch], product, k, " at the roll",
+          prices_file)
+    old_before = raw[switch - 1]
+    # step[j] links date j (a roll date) to j + 1; older history takes every later step
+    step = np.zeros(len(dates))
+    step[switch - 1] = new_before - old_before
+    by_difference = raw + np.cumsum(step[::-1])[::-1]
+    if adjust == "none":
+        return raw.copy(), by_difference
+    if adjust == "difference":
+        return by_difference, by_difference
+    t = np.arange(len(dates))
+    _positive(np.concatenate([raw, new_before]), np.concatenate([
+        r[t, held], r[switch - 1, held[switch]]]), product, k, prices_file)
+    step = np.ones(len(dates))
+    step[switch - 1] = new_before / old_before
+    return raw * np.cumprod(step[::-1])[::-1], by_difference
 
 
 def _need(values, dates, names, held, product, k, what, source):
@@ -201,7 +212,8 @@ def _positive(values, rows, product, k, source):
 def _roll(prices, expiries, *, months, roll_days, adjust, date_column="date",
           contract_column="contract", price_column="price", prices_file=None,
           expiries_file=None):
-    """Generic months and the file row of each value; dates where every product has a price."""
+    """Generic months on the dates where every product has a price: adjusted levels, file rows,
+    held contracts' prices, P&L levels (see :func:`_one_product`); and the parsed long prices."""
     if adjust not in ADJUSTMENTS:
         raise InputError(f"unknown adjust {adjust!r}; use one of: {', '.join(ADJUSTMENTS)}",
                          key="data.roll.adjust")
@@ -220,13 +232,13 @@ def _roll(prices, expiries, *, months, roll_days, adjust, date_column="date",
                             price_column, prices_file)
     parts = [_one_product(long, table, product, int(n), int(roll_days), adjust,
                           (prices_file, expiries_file)) for product, n in months.items()]
-    level = pd.concat([pp for pp, _ in parts], axis=1, join="inner")
-    rows = pd.concat([rr for _, rr in parts], axis=1, join="inner")
-    if level.empty:
+    frames = [pd.concat([part[i] for part in parts], axis=1, join="inner") for i in range(4)]
+    if frames[0].empty:
         raise InputError("no date has a price for every product "
                          f"({', '.join(months)})", file=prices_file)
-    level.index.name = rows.index.name = "date"
-    return level.astype(float), rows.astype(int), long
+    for f in frames:
+        f.index.name = "date"
+    return frames, long
 
 
 def roll_generic(
@@ -264,7 +276,9 @@ def roll_generic(
     Back-adjusted levels before the last roll are **not tradable prices** (a ratio-adjusted
     level may never have been quoted; a difference-adjusted one may even be negative). The
     last rows (since the last roll) **equal the real prices** of the contracts held now, so
-    current prices used for value-based contract counts stay right. Each product is built on
+    current prices used for value-based contract counts stay right. Earlier levels depend on
+    later rolls: a history as known on a past date is
+    :meth:`~data_adapters.prices.PricePanel.as_of`. Each product is built on
     its own trading dates; the result keeps the dates on which every product has prices, and
     a change across dropped dates is still the change of the rolled position.
 
@@ -308,11 +322,11 @@ def roll_generic(
     futures, "rolling the hedge forward" (from memory). Back-adjusting continuous futures series
     by differences or ratios at each roll: common practice, no source.
     """
-    level, _, _ = _roll(prices, expiries, months=months, roll_days=roll_days, adjust=adjust,
-                        date_column=date_column, contract_column=contract_column,
-                        price_column=price_column, prices_file=prices_file,
-                        expiries_file=expiries_file)
-    return level
+    frames, _ = _roll(prices, expiries, months=months, roll_days=roll_days, adjust=adjust,
+                      date_column=date_column, contract_column=contract_column,
+                      price_column=price_column, prices_file=prices_file,
+                      expiries_file=expiries_file)
+    return frames[0].astype(float)
 
 
 def read_expiries(path: str | Path) -> pd.DataFrame:
@@ -327,7 +341,10 @@ def load_contract_prices(book) -> PricePanel:
     rolled with :func:`roll_generic` (months 1..max k per product). Any other series (e.g. a
     regional rack price with no future) is read from the same file as a plain long-format
     series: its rows carry the series name in the contract column. Dates are aligned as for
-    the other layouts (``dropped_rows`` counts the dates lost) and gaps checked.
+    the other layouts (``dropped_rows`` counts the dates lost) and gaps checked. The panel also
+    carries the held contracts' real prices (``held``) and difference-adjusted levels (``pnl``,
+    whose changes are the rolled position's P&L, also across dropped dates), so every
+    ``adjust`` needs the new contract's price on each roll date.
     """
     d, roll = book.data, book.data.roll
     prices_file, expiries_file = str(book.prices_path), str(book.expiries_path)
@@ -355,31 +372,31 @@ def load_contract_prices(book) -> PricePanel:
                 f"{expiries_file} nor a name in column {roll.contract_column!r}",
                 file=prices_file, column=roll.contract_column,
             )
-    parts, row_parts = [], []
+    parts = []  # per source: adjusted levels, file rows, held prices, P&L levels
     all_dates = set()
     if months:
-        level, rows, long = _roll(
+        frames, long = _roll(
             frame.loc[~is_plain], expiries, months=months, roll_days=roll.roll_days,
             adjust=roll.adjust, date_column=d.date_column, contract_column=roll.contract_column,
             price_column=d.price_column, prices_file=prices_file, expiries_file=expiries_file)
-        parts.append(level)
-        row_parts.append(rows)
+        parts.append(frames)
         all_dates.update(long["date"])
     if plain:
         other = _contract_prices(frame.loc[is_plain], set(plain), d.date_column,
                                  roll.contract_column, d.price_column, prices_file)
-        parts.append(other.pivot(index="date", columns="contract", values="v"))
-        row_parts.append(other.pivot(index="date", columns="contract", values="r"))
+        v = other.pivot(index="date", columns="contract", values="v")
+        parts.append([v, other.pivot(index="date", columns="contract", values="r"), v, v])
         all_dates.update(other["date"])
-    level = pd.concat(parts, axis=1).sort_index()
-    rows = pd.concat(row_parts, axis=1).sort_index()
+    level, rows, held, pnl = (pd.concat([p[i] for p in parts], axis=1).sort_index()
+                              for i in range(4))
     complete = level[wanted].notna().all(axis=1).to_numpy()
     if not complete.any():
         raise InputError("no date has a price for every series", file=prices_file)
-    level = level.loc[complete, wanted].astype(float)
+    level, held, pnl = (f.loc[complete, wanted].astype(float) for f in (level, held, pnl))
     rows = rows.loc[complete, wanted].astype(int)
-    level.columns.name = rows.columns.name = None
-    level.index.name = rows.index.name = "date"
+    for f in (level, rows, held, pnl):
+        f.columns.name, f.index.name = None, "date"
     _check_gaps(level.index, rows, d.max_gap_days, prices_file)
     return PricePanel(prices=level, source=book.prices_path,
-                      dropped_rows=len(all_dates) - len(level), file_rows=rows)
+                      dropped_rows=len(all_dates) - len(level), file_rows=rows, held=held,
+                      pnl=pnl, adjust=roll.adjust)

@@ -10,7 +10,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
+import pandas as pd
+
 from basiswise.data_adapters.book import Book, load_book
+from basiswise.data_adapters.errors import InputError
 from basiswise.data_adapters.prices import PricePanel, check_positive, load_prices
 
 from .estimation.changes import horizon_changes
@@ -51,13 +54,24 @@ def prepare(book: Book | str | Path, **overrides) -> Prepared:
     return Prepared(book, panel)
 
 
-def model_of(prep: Prepared, *, fractional: bool = False, prices=None) -> HedgeModel:
+def model_of(prep: Prepared, *, fractional: bool = False, prices=None, as_of=None) -> HedgeModel:
     """Estimate the covariance of ``prep``'s book and build its hedge model.
 
-    ``prices`` replaces the panel's price frame (used by backtests to cut history at a date).
+    ``as_of`` (a date) uses the history up to that date as it was known then: rolled series
+    back-adjusted with the rolls up to it, current prices those of the contracts then held
+    (:meth:`~data_adapters.prices.PricePanel.as_of`). ``prices`` replaces the panel's price
+    frame as given; a slice of rolled levels would carry later rolls, so cut with ``as_of``.
     """
     book, est = prep.book, prep.book.estimation
     frame = prep.panel.prices if prices is None else prices
+    if as_of is not None:
+        if prices is not None:
+            raise InputError("give as_of or prices, not both", key="as_of")
+        end = int(frame.index.searchsorted(pd.Timestamp(as_of), side="right")) - 1
+        if end < 0:
+            raise InputError(f"as_of {as_of} is before the first price date "
+                             f"{prep.panel.first_date.date()}", key="as_of")
+        frame = prep.panel.as_of(end)
     changes = horizon_changes(frame, horizon_days=book.book.horizon_days, kind=est.changes,
                               sampling=est.sampling, window=est.window)
     estimate = estimate_covariance(changes.values, est.estimator, ewma_lambda=est.ewma_lambda)

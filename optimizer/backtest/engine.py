@@ -3,15 +3,18 @@
 For price rows ``P_0 … P_{N−1}``, trailing window ``W``, horizon ``H`` and rebalance step ``k``,
 the rebalance rows are ``t = W−1, W−1+k, …`` while ``t + H ≤ N−1``. At each one:
 
-1. the horizon changes of rows ``t−W+1 … t`` only (nothing after ``t``) are estimated with each
-   covariance estimator;
+1. the horizon changes of rows ``t−W+1 … t`` only, as known on date ``t`` (rolled series
+   back-adjusted with the rolls up to ``t`` and ending at the held contracts' real prices,
+   :meth:`~data_adapters.prices.PricePanel.as_of`), are estimated with each covariance estimator;
 2. every strategy of :mod:`optimizer.strategies` picks its target positions ``n_t``; the joint
    strategies solve the book's hedge problem with ``current`` = the strategy's previous target,
    so liquidity limits apply to the change ``|n_t − n_{t−k}|``;
 3. the realised P&L over the next horizon is recorded,
    ``exposures = Eᵀ1 · (P_{t+H} − P_t)`` and ``hedge leg = (Cᵀ n_t) · (P_{t+H} − P_t)``, together
    with the P&L over the holding period to the next rebalance, ``P_{t+k} − P_t`` (the path that
-   is drawn and tested for effectiveness; the two coincide when ``k = H``).
+   is drawn and tested for effectiveness; the two coincide when ``k = H``). For rolled series
+   ``P`` is the P&L level (:attr:`~data_adapters.prices.PricePanel.pnl_levels`): across a roll
+   the old contract is closed and the new one opened.
 
 Metrics per strategy and estimator, over the ``R`` out-of-sample horizon P&Ls: realised variance
 reduction ``1 − Var(hedged) / Var(unhedged)`` (Ederington 1979), hedged P&L standard deviation,
@@ -43,6 +46,7 @@ import pandas as pd
 
 from basiswise.data_adapters.book import Book
 from basiswise.data_adapters.errors import InputError
+from basiswise.data_adapters.prices import PricePanel
 
 from ..estimation.changes import dollar_covariance, horizon_changes
 from ..estimation.covariance import ESTIMATORS, estimate_covariance
@@ -292,7 +296,8 @@ def run_backtest(
     reuse : bool
         Re-use the canonicalised cvxpy problem (``False`` rebuilds it every time: the baseline).
     prices : DataFrame, optional
-        Price panel to use instead of the book's file (columns = the book's series).
+        Plain price levels to use instead of the book's file (columns = the book's series),
+        each row taken as known on its date; not for globally back-adjusted rolled levels.
     progress : callable, optional
         Called as ``progress(done, total)`` after each rebalance date.
     """
@@ -312,18 +317,20 @@ def run_backtest(
         raise InputError(f"unknown method {method!r}; valid: {', '.join(WHOLE_METHODS)}",
                          key="method")
     est_cfg, H = bk.estimation, bk.book.horizon_days
-    frame = prep.panel.prices if prices is None else prices
-    frame = frame[[c for c in bk.series_ids() if c in frame.columns]]
-    if list(frame.columns) != bk.series_ids():
-        missing = sorted(set(bk.series_ids()) - set(frame.columns))
-        raise InputError(f"price panel lacks series {', '.join(missing)}", key="data.prices")
+    panel = prep.panel
+    if prices is not None:  # plain levels: what they show is what was known on each date
+        missing = sorted(set(bk.series_ids()) - set(prices.columns))
+        if missing:
+            raise InputError(f"price panel lacks series {', '.join(missing)}", key="data.prices")
+        panel = PricePanel(prices[bk.series_ids()], panel.source, 0)
+    frame = panel.prices
     W = est_cfg.window
     if W > len(frame):
         raise InputError(f"window of {W} rows is longer than the price history of {len(frame)} "
                          "rows", key="estimation.window")
     k = H if step is None else step
     rows = rebalance_rows(len(frame), W, H, k)
-    values = frame.to_numpy(dtype=float)
+    values = panel.pnl_levels.to_numpy(dtype=float)  # P&L of the contracts actually held
     series = list(frame.columns)
     E, C = loadings(bk, series)
     R, n, N = len(rows), len(bk.instruments), len(frame)
@@ -341,7 +348,7 @@ def run_backtest(
     prev = {key: start.copy() for key in keys}
     fixed_one = None
     for r, t in enumerate(rows):
-        changes = horizon_changes(frame.iloc[t - W + 1:t + 1], horizon_days=H, kind=est_cfg.changes,
+        changes = horizon_changes(panel.as_of(t, t - W + 1), horizon_days=H, kind=est_cfg.changes,
                                   sampling=est_cfg.sampling, window=None)
         sample_cov = dollar_covariance(
             np.atleast_2d(np.cov(changes.values, rowvar=False)), changes)

@@ -4,18 +4,34 @@ Given ``T`` observations ``x_t`` (rows of ``X``, shape ``(T, k)``), with mean ``
 centred rows ``y_t = x_t - x̄``:
 
 * ``"sample"``: unbiased sample covariance ``S_u = Σ_t y_t y_tᵀ / (T - 1)`` (``numpy.cov``).
-* ``"ledoit-wolf"``: ``(1 - δ) S + δ μ I`` with ``S = Σ_t y_t y_tᵀ / T`` the maximum-likelihood
-  (``ddof = 0``) covariance, ``μ = tr(S)/k`` and ``δ`` the Ledoit-Wolf (2004) intensity, from
-  ``sklearn.covariance.LedoitWolf``.
-* ``"oas"``: same target and ``S``, intensity from the oracle approximating shrinkage of Chen et
-  al. (2010), ``sklearn.covariance.OAS``.
+* ``"ledoit-wolf"``: the Ledoit-Wolf (2004) estimator, ``(1 - δ) R + δ μ I``, applied to the
+  *standardised* changes (see below), from ``sklearn.covariance.LedoitWolf``.
+* ``"oas"``: same target, intensity from the oracle approximating shrinkage of Chen et al.
+  (2010), ``sklearn.covariance.OAS``, on the standardised changes.
 * ``"constant-correlation"``: ``δ F + (1 - δ) S`` with the constant-correlation target
   ``F_ii = s_ii``, ``F_ij = r̄ sqrt(s_ii s_jj)`` (``r̄`` = average sample correlation) and the
-  optimal intensity of Ledoit and Wolf (2003, 2004). Cross hedges live on correlations, and an
-  identity target shrinks every covariance toward zero and with it every cross-hedge ratio; this
-  target keeps the common correlation. Written here because no maintained library has it.
+  optimal intensity of Ledoit and Wolf (2003, 2004), on the standardised changes. Cross hedges
+  live on correlations, and an identity target shrinks every correlation toward zero and with it
+  every cross-hedge ratio; this target keeps the common correlation. Written here because no
+  maintained library has it.
 * ``"ewma"``: zero-mean exponentially weighted average of outer products (RiskMetrics, 1996),
   ``Σ = Σ_t w_t x_t x_tᵀ`` with ``w_t ∝ (1 - λ) λ^(T-1-t)`` normalised to sum to 1.
+
+Standardisation (the three shrinkage estimators). A book mixes quote units — USD/bbl next to
+USD/gal, MMBtu next to GJ — and with absolute changes each column's variance is in its own unit.
+The published intensities add squared errors over all entries and the identity target uses
+``tr(S)/k``; neither is invariant to rescaling one series, so the series with the largest
+variance *in its own unit* would decide the shrinkage, and re-quoting one series would change
+the hedge (a 1 % intensity can triple the hedged risk). Shrinking the correlations and keeping
+each variance is the remedy of Schäfer and Strimmer (2005). Each shrinkage estimator therefore
+runs on ``z_t = D⁻¹ y_t`` with ``D = diag(sqrt(s_ii))`` the maximum-likelihood (``ddof = 0``)
+standard deviations, and the result is scaled back, ``Σ̂ = D Σ̂_z D``. ``Σ̂_z`` has unit
+diagonal (the target keeps the variances), so each series keeps its own ML variance and only the
+correlations are shrunk. The result is
+equivariant: for ``X' = X A`` with ``A`` diagonal and positive, ``Σ̂' = A Σ̂ A``, whatever the
+change kind — which is what makes the hedge independent of the quote unit. The sample and EWMA
+estimators are equivariant as they stand. A series that does not move over the sample
+(``s_ii = 0``) gets zero variance and covariance and is left out of the shrinkage.
 
 Shrinkage estimators report their intensity ``δ`` in ``[0, 1]``.
 
@@ -31,6 +47,9 @@ References
 .. [4] Chen, Y., Wiesel, A., Eldar, Y. C. and Hero, A. O. (2010). "Shrinkage algorithms for MMSE
    covariance estimation." IEEE Transactions on Signal Processing 58(10), 5016-5029.
 .. [5] J.P. Morgan/Reuters (1996). RiskMetrics Technical Document, 4th ed., ch. 5.
+.. [6] Schäfer, J. and Strimmer, K. (2005). "A shrinkage approach to large-scale covariance
+   matrix estimation and implications for functional genomics." Statistical Applications in
+   Genetics and Molecular Biology 4(1), article 32 (shrinking correlations, variances kept).
 """
 
 from __future__ import annotations
@@ -109,6 +128,51 @@ def _validate(X: object, columns: Sequence[str] | None) -> np.ndarray:
             key=None if _column(int(c), columns) else "estimation",
         )
     return np.ascontiguousarray(arr)
+
+
+def standardised(X: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Centred changes divided by their maximum-likelihood standard deviations.
+
+    ``z_ti = (x_ti - x̄_i) / sqrt(s_ii)`` with ``s_ii = (1/T) Σ_t (x_ti - x̄_i)²``, for the
+    columns that move (``s_ii > 0``).
+
+    Parameters
+    ----------
+    X : numpy.ndarray
+        ``(T, k)`` finite observations.
+
+    Returns
+    -------
+    Z : numpy.ndarray
+        ``(T, m)`` standardised columns of the ``m`` series that move.
+    sd : numpy.ndarray
+        ``(m,)`` their standard deviations ``sqrt(s_ii)``.
+    moving : numpy.ndarray
+        ``(k,)`` boolean mask of those columns.
+    """
+    Y = X - X.mean(axis=0)
+    sd = np.sqrt((Y * Y).mean(axis=0))
+    # a column whose spread is at rounding level of its mean does not move either
+    moving = sd > 1e-12 * np.maximum(np.abs(X).max(axis=0), np.finfo(float).tiny)
+    return Y[:, moving] / sd[moving], sd[moving], moving
+
+
+def on_correlations(X: np.ndarray, shrink) -> tuple[np.ndarray, float]:
+    """Run a shrinkage estimator on standardised changes and scale the result back.
+
+    ``Σ̂ = D Σ̂_z D`` with ``Σ̂_z = shrink(Z)``, ``Z`` and ``D = diag(sd)`` from
+    :func:`standardised`; rows and columns of series that do not move are zero. ``shrink``
+    maps ``Z`` to ``(matrix, intensity)``.
+    """
+    Z, sd, moving = standardised(X)
+    k = X.shape[1]
+    out = np.zeros((k, k))
+    if not moving.any():
+        return out, 0.0
+    inner, intensity = shrink(Z)
+    idx = np.flatnonzero(moving)
+    out[np.ix_(idx, idx)] = inner * np.outer(sd, sd)
+    return out, float(intensity)
 
 
 def sample_covariance(X: np.ndarray) -> np.ndarray:
@@ -274,11 +338,12 @@ def estimate_covariance(
     Methods (see the module docstring for the formulas):
 
     * ``"sample"``: unbiased sample covariance (``ddof = 1``, ``numpy.cov``);
-    * ``"ledoit-wolf"``: ``sklearn.covariance.LedoitWolf`` — shrinks the maximum-likelihood
-      (``ddof = 0``) covariance toward a scaled identity; reports ``shrinkage_``;
-    * ``"oas"``: ``sklearn.covariance.OAS`` — same target and ``ddof = 0``; reports
-      ``shrinkage_``;
-    * ``"constant-correlation"``: :func:`constant_correlation_shrinkage` (``ddof = 0``);
+    * ``"ledoit-wolf"``: ``sklearn.covariance.LedoitWolf`` on the standardised changes
+      (:func:`on_correlations`) — shrinks the maximum-likelihood (``ddof = 0``) correlations
+      toward the identity, keeps each variance; reports ``shrinkage_``;
+    * ``"oas"``: ``sklearn.covariance.OAS`` — the same with the OAS intensity;
+    * ``"constant-correlation"``: :func:`constant_correlation_shrinkage` on the standardised
+      changes (``ddof = 0``);
     * ``"ewma"``: :func:`ewma_covariance` (zero mean, normalised finite-sample weights).
 
     Parameters
@@ -327,19 +392,31 @@ def estimate_covariance(
         matrix = sample_covariance(arr)
         detail = f"unbiased sample covariance (ddof=1) of {T} observations"
     elif method in ("ledoit-wolf", "oas"):
-        est = (LedoitWolf() if method == "ledoit-wolf" else OAS()).fit(arr)
-        matrix = np.asarray(est.covariance_, dtype=np.float64)
-        shrinkage = float(est.shrinkage_)
+        cls = LedoitWolf if method == "ledoit-wolf" else OAS
+
+        def fit(Z):
+            est = cls(assume_centered=True).fit(Z)
+            return np.asarray(est.covariance_, dtype=np.float64), est.shrinkage_
+
+        matrix, shrinkage = on_correlations(arr, fit)
         label = "Ledoit-Wolf" if method == "ledoit-wolf" else "OAS"
         detail = (
-            f"{label} shrinkage of the ddof=0 covariance to scaled identity, intensity "
-            f"{shrinkage:.3f}, {T} observations"
+            f"{label} shrinkage of the ddof=0 correlations toward the identity, each series' "
+            f"own variance kept, intensity {shrinkage:.3f}, {T} observations"
         )
     elif method == "constant-correlation":
-        matrix, shrinkage, r_bar = constant_correlation_shrinkage(arr, columns)
+        r_bar = 1.0
+
+        def fit(Z):
+            nonlocal r_bar
+            inner, delta, r_bar = constant_correlation_shrinkage(Z)
+            return inner, delta
+
+        matrix, shrinkage = on_correlations(arr, fit)
         detail = (
-            f"Ledoit-Wolf shrinkage of the ddof=0 covariance to constant correlation "
-            f"{r_bar:.3f}, intensity {shrinkage:.3f}, {T} observations"
+            f"Ledoit-Wolf shrinkage of the ddof=0 correlations toward constant correlation "
+            f"{r_bar:.3f}, each series' own variance kept, intensity {shrinkage:.3f}, "
+            f"{T} observations"
         )
     else:
         lam = ewma_lambda

@@ -13,6 +13,9 @@ named do not move. The historical replay applies each horizon window of the pric
 today's prices — ``dP = P_now × (P[t+h] / P[t] − 1)`` for relative and log changes,
 ``dP = P[t+h] − P[t]`` for absolute changes — and picks the window with the lowest P&L of the
 chosen position (historical simulation, a full-revaluation stress for a linear book).
+The history is the one known today: rolled series are back-adjusted with every roll up to the
+last date and end at the real prices of the contracts held. A replay as of a past date must
+take :meth:`data_adapters.prices.PricePanel.as_of` of that date, not a slice of today's levels.
 
 References
 ----------

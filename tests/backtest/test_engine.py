@@ -27,21 +27,12 @@ from basiswise.optimizer.pipeline import prepare
 from basiswise.optimizer.problem.model import loadings
 from basiswise.optimizer.problem.qp import HedgeQP
 
-from bw_testkit import book_dict, make_book, write_wide
-
-SERIES = {"spot_a": "USD/gal", "spot_b": "USD/gal", "fut_a": "USD/gal", "fut_b": "USD/bbl"}
-
-
-def _changes(n: int, seed: int) -> np.ndarray:
-    rng = np.random.default_rng(seed)
-    f = rng.normal(0.0, [0.02, 0.8], size=(n, 2))          # futures moves (USD/gal, USD/bbl)
-    sa = 0.9 * f[:, 0] + rng.normal(0.0, 0.006, n)
-    sb = 0.6 * f[:, 0] + 0.01 * f[:, 1] + rng.normal(0.0, 0.008, n)
-    return np.column_stack([sa, sb, f[:, 0], f[:, 1]])
+from bw_testkit import TWO_SPOT_SERIES, book_dict, make_book, two_spot_changes, write_wide
 
 
 def _book(tmp_path, n=160, seed=0, **sections):
-    write_wide(tmp_path / "prices.csv", _changes(n, seed), list(SERIES), [2.5, 2.4, 2.45, 70.0])
+    write_wide(tmp_path / "prices.csv", two_spot_changes(n, seed), list(TWO_SPOT_SERIES),
+               [2.5, 2.4, 2.45, 70.0])
     ins = [
         {"id": "FA", "series": "fut_a", "contract_size": 42_000, "unit": "gal",
          "position_limit": 60, "adv": 400, "max_participation": 0.1, "execution_days": 1,
@@ -51,7 +42,7 @@ def _book(tmp_path, n=160, seed=0, **sections):
     ]
     exp = [{"id": "EA", "series": "spot_a", "quantity": -1_000_000, "unit": "gal", "proxy": "FA"},
            {"id": "EB", "series": "spot_b", "quantity": -12_000, "unit": "bbl", "proxy": "FB"}]
-    data = book_dict("prices.csv", SERIES, exp, ins,
+    data = book_dict("prices.csv", TWO_SPOT_SERIES, exp, ins,
                      book={"horizon_days": 5}, estimation={"window": 60}, **sections)
     return make_book(tmp_path, data)
 
@@ -112,8 +103,8 @@ def test_one_to_one_converts_units(tmp_path):
 
 def test_single_mv_is_the_ols_hedge_ratio(tmp_path):
     book = _book(tmp_path)
-    changes = _changes(400, 3)
-    E, C = loadings(book, list(SERIES))
+    changes = two_spot_changes(400, 3)
+    E, C = loadings(book, list(TWO_SPOT_SERIES))
     cov = np.cov(changes, rowvar=False)
     n = single_mv_fractional(E, C, cov, [0, 1])
     # source: Ederington (1979), J. Finance 34(1): minimum-variance hedge ratio = OLS slope of

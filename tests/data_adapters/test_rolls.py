@@ -11,28 +11,9 @@ from basiswise.data_adapters.errors import InputError
 from basiswise.data_adapters.prices import load_prices
 from basiswise.data_adapters.rolls import roll_generic
 
-# Invented product "ulsd" with four monthly contracts (all Fridays or weekdays).
-EXPIRIES = pd.DataFrame({
-    "contract": ["ULSD-2026-02", "ULSD-2026-03", "ULSD-2026-04", "ULSD-2026-05"],
-    "last_trade": ["2026-01-30", "2026-02-27", "2026-03-31", "2026-04-30"],
-    "product": ["ulsd", "ulsd", "ulsd", "ulsd"],
-})
-DATES = pd.bdate_range("2026-01-19", "2026-03-06")
-# roll_days = 2 business days before last_trade: 2026-01-30 (Fri) -> Wed 2026-01-28;
-# 2026-02-27 (Fri) -> Wed 2026-02-25. A contract is held through the close of its roll date.
-# common practice, no source
+from bw_testkit import DATES, EXPIRIES, contract_prices, write_rolled_book
+
 ROLL_1, ROLL_2 = pd.Timestamp("2026-01-28"), pd.Timestamp("2026-02-25")
-
-
-def _contract_prices(seed: int = 3) -> pd.DataFrame:
-    """Long table of invented prices: each contract a random walk, later months dearer."""
-    rng = np.random.default_rng(seed)
-    rows = []
-    for j, name in enumerate(EXPIRIES["contract"]):
-        walk = 2.5 + 0.15 * j + np.cumsum(rng.normal(0.0, 0.03, len(DATES)))
-        rows += [(d.strftime("%Y-%m-%d"), name, round(float(v), 4))
-                 for d, v in zip(DATES, walk, strict=True)]
-    return pd.DataFrame(rows, columns=["date", "contract", "price"])
 
 
 def _wide(long: pd.DataFrame) -> pd.DataFrame:
@@ -56,7 +37,7 @@ def _err(fn, *args, **kw) -> InputError:
 
 def _roll(prices=None, expiries=None, **kw):
     args = {"months": {"ulsd": 2}, "roll_days": 2, "adjust": "ratio"} | kw
-    return roll_generic(_contract_prices() if prices is None else prices,
+    return roll_generic(contract_prices() if prices is None else prices,
                         EXPIRIES if expiries is None else expiries, **args)
 
 
@@ -64,7 +45,7 @@ def _roll(prices=None, expiries=None, **kw):
 
 
 def test_month_one_and_two_around_the_roll():
-    raw = _wide(_contract_prices())
+    raw = _wide(contract_prices())
     out = _roll(adjust="none")
     assert list(out.columns) == ["ulsd_m1", "ulsd_m2"]
     day_before, roll_day, day_after = (pd.Timestamp(d) for d in
@@ -82,7 +63,7 @@ def test_month_one_and_two_around_the_roll():
 
 
 def test_roll_days_zero_holds_through_last_trade_day():
-    raw = _wide(_contract_prices())
+    raw = _wide(contract_prices())
     out = _roll(adjust="none", roll_days=0, months={"ulsd": 1})
     last, after = pd.Timestamp("2026-01-30"), pd.Timestamp("2026-02-02")
     # reference: numpy.busday_offset counts Mon–Fri business days; 0 days = the last trade day
@@ -95,7 +76,7 @@ def test_roll_days_zero_holds_through_last_trade_day():
 
 @pytest.mark.parametrize("k", [1, 2])
 def test_ratio_adjustment_keeps_held_contract_relative_changes(k):
-    raw = _wide(_contract_prices()).to_numpy()
+    raw = _wide(contract_prices()).to_numpy()
     names = list(EXPIRIES["contract"])
     col = np.array([names.index(c) for c in _held(k)])
     t = np.arange(1, len(DATES))
@@ -108,7 +89,7 @@ def test_ratio_adjustment_keeps_held_contract_relative_changes(k):
 
 @pytest.mark.parametrize("k", [1, 2])
 def test_difference_adjustment_keeps_held_contract_absolute_changes(k):
-    raw = _wide(_contract_prices()).to_numpy()
+    raw = _wide(contract_prices()).to_numpy()
     names = list(EXPIRIES["contract"])
     col = np.array([names.index(c) for c in _held(k)])
     t = np.arange(1, len(DATES))
@@ -121,7 +102,7 @@ def test_difference_adjustment_keeps_held_contract_absolute_changes(k):
 
 @pytest.mark.parametrize("adjust", ["ratio", "difference", "none"])
 def test_rows_since_last_roll_are_real_current_prices(adjust):
-    raw = _wide(_contract_prices())
+    raw = _wide(contract_prices())
     out = _roll(adjust=adjust)
     since = DATES[DATES > ROLL_2]
     # reference: definition of a back-adjusted series (only history before a roll is changed)
@@ -131,7 +112,7 @@ def test_rows_since_last_roll_are_real_current_prices(adjust):
 
 
 def test_unadjusted_series_jumps_at_the_roll_adjusted_does_not():
-    raw = _wide(_contract_prices())
+    raw = _wide(contract_prices())
     none = _roll(adjust="none")["ulsd_m1"]
     ratio = _roll(adjust="ratio")["ulsd_m1"]
     after = pd.Timestamp("2026-01-29")
@@ -151,7 +132,7 @@ def test_several_products_keep_common_dates():
     dates = DATES[1:]  # natgas starts a day later
     rows = [(d.strftime("%Y-%m-%d"), c, 3.0 + i + 0.01 * n)
             for i, c in enumerate(gas["contract"]) for n, d in enumerate(dates)]
-    prices = pd.concat([_contract_prices(), pd.DataFrame(rows, columns=["date", "contract",
+    prices = pd.concat([contract_prices(), pd.DataFrame(rows, columns=["date", "contract",
                                                                         "price"])])
     out = roll_generic(prices, pd.concat([EXPIRIES, gas]), months={"ulsd": 1, "natgas": 1},
                        roll_days=2, adjust="difference")
@@ -163,7 +144,7 @@ def test_several_products_keep_common_dates():
 
 
 def test_unknown_contract_names_row_and_column():
-    prices = _contract_prices()
+    prices = contract_prices()
     prices.loc[5, "contract"] = "ULSD-2027-01"
     err = _err(_roll, prices, prices_file="contracts.csv")
     assert err.file == "contracts.csv" and err.row == 7 and err.column == "contract"
@@ -200,7 +181,7 @@ def test_unknown_adjust_and_negative_roll_days():
 
 
 def test_missing_price_of_needed_contract_names_date():
-    prices = _contract_prices()
+    prices = contract_prices()
     drop = (prices["contract"] == "ULSD-2026-03") & (prices["date"] == "2026-01-28")
     err = _err(_roll, prices.loc[~drop], months={"ulsd": 1}, prices_file="contracts.csv")
     assert err.file == "contracts.csv"
@@ -208,7 +189,7 @@ def test_missing_price_of_needed_contract_names_date():
 
 
 def test_ratio_needs_positive_prices():
-    prices = _contract_prices()
+    prices = contract_prices()
     prices.loc[3, "price"] = -0.5
     err = _err(_roll, prices, prices_file="contracts.csv")
     assert err.row == 5 and "adjust = 'difference'" in str(err)
@@ -217,62 +198,9 @@ def test_ratio_needs_positive_prices():
 
 # --------------------------------------------------------------------------- through a book
 
-BOOK = """\
-[book]
-name = "Rolled fleet"
-horizon_days = 2
-
-[data]
-prices = "contracts.csv"
-format = "contracts"
-
-[data.roll]
-expiries = "expiries.csv"
-roll_days = 2
-adjust = "{adjust}"
-
-[series.ulsd_m1]
-unit = "USD/gal"
-
-[series.ulsd_m2]
-unit = "USD/gal"
-
-[series.rack_diesel]
-unit = "USD/gal"
-
-[[exposure]]
-id = "fleet"
-series = "rack_diesel"
-quantity = -500000.0
-unit = "gal"
-
-[[instrument]]
-id = "ULSD-M1"
-series = "ulsd_m1"
-contract_size = 42000
-unit = "gal"
-
-[[instrument]]
-id = "ULSD-M2"
-series = "ulsd_m2"
-contract_size = 42000
-unit = "gal"
-"""
-
-
-def _write_book(folder, adjust="ratio"):
-    prices = _contract_prices()
-    rack = pd.DataFrame({"date": DATES.strftime("%Y-%m-%d"), "contract": "rack_diesel",
-                         "price": np.linspace(2.6, 2.9, len(DATES))})
-    pd.concat([prices, rack]).to_csv(folder / "contracts.csv", index=False)
-    EXPIRIES.to_csv(folder / "expiries.csv", index=False)
-    (folder / "book.toml").write_text(BOOK.format(adjust=adjust))
-    return folder / "book.toml"
-
-
 @pytest.mark.parametrize("adjust", ["ratio", "difference"])
 def test_book_with_contracts_format_loads_generic_columns(tmp_path, adjust):
-    book = load_book(_write_book(tmp_path, adjust))
+    book = load_book(write_rolled_book(tmp_path, adjust))
     assert book.data.roll.adjust == adjust and book.data.roll.roll_days == 2
     panel = load_prices(book)
     assert list(panel.prices.columns) == ["rack_diesel", "ulsd_m1", "ulsd_m2"]
@@ -288,7 +216,7 @@ def test_book_with_contracts_format_loads_generic_columns(tmp_path, adjust):
 
 
 def test_book_contract_errors_name_the_files(tmp_path):
-    path = _write_book(tmp_path)
+    path = write_rolled_book(tmp_path)
     text = (tmp_path / "contracts.csv").read_text().replace("ULSD-2026-03", "ULSD-2026-13", 1)
     (tmp_path / "contracts.csv").write_text(text)
     err = _err(load_prices, load_book(path))
@@ -297,7 +225,7 @@ def test_book_contract_errors_name_the_files(tmp_path):
 
 
 def test_book_roll_table_checks(tmp_path):
-    path = _write_book(tmp_path)
+    path = write_rolled_book(tmp_path)
     text = path.read_text()
     path.write_text(text.replace('format = "contracts"\n', ""))
     assert _err(load_book, path).key == "data.roll"

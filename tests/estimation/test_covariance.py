@@ -9,7 +9,11 @@ import pytest
 from sklearn.covariance import OAS, LedoitWolf
 
 from basiswise.data_adapters.errors import InputError
-from basiswise.optimizer.estimation.covariance import ESTIMATORS, estimate_covariance
+from basiswise.optimizer.estimation.covariance import (
+    ESTIMATORS,
+    constant_correlation_shrinkage,
+    estimate_covariance,
+)
 
 
 def _sample(T: int, k: int, seed: int) -> np.ndarray:
@@ -67,6 +71,13 @@ def _constant_correlation_loop(X: np.ndarray) -> tuple[np.ndarray, float, float]
     return out, delta, r_bar
 
 
+def _standardise(X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Centred columns over their ddof=0 standard deviations, and those deviations."""
+    Y = X - X.mean(axis=0)
+    sd = np.sqrt((Y**2).mean(axis=0))
+    return Y / sd, sd
+
+
 def test_sample_equals_numpy_cov():
     X = _sample(60, 5, 1)
     est = estimate_covariance(X, "sample")
@@ -76,27 +87,67 @@ def test_sample_equals_numpy_cov():
 
 
 @pytest.mark.parametrize("method, cls", [("ledoit-wolf", LedoitWolf), ("oas", OAS)])
-def test_shrinkage_equals_sklearn(method, cls):
+def test_shrinkage_equals_sklearn_on_standardised_changes(method, cls):
     X = _sample(80, 7, 2)
     est = estimate_covariance(X, method)
-    ref = cls().fit(X)
-    # source: scikit-learn reference library, sklearn.covariance.LedoitWolf / OAS
-    np.testing.assert_allclose(est.matrix, ref.covariance_, rtol=1e-12)
+    Z, sd = _standardise(X)
+    ref = cls().fit(Z)
+    # source: scikit-learn reference library, sklearn.covariance.LedoitWolf / OAS, fitted to the
+    # standardised changes and scaled back with each series' standard deviation (correlation
+    # shrinkage as in Schäfer & Strimmer 2005, Stat. Appl. Genet. Mol. Biol. 4(1), art. 32)
+    np.testing.assert_allclose(est.matrix, ref.covariance_ * np.outer(sd, sd), rtol=1e-12)
     assert est.shrinkage == pytest.approx(ref.shrinkage_, rel=1e-12)
     assert 0.0 <= est.shrinkage <= 1.0
     assert "ddof=0" in est.detail
+    # the target keeps every variance: only correlations shrink
+    np.testing.assert_allclose(np.diag(est.matrix), np.var(X, axis=0), rtol=1e-12)
+
+
+@pytest.mark.parametrize("T, k, seed", [(40, 6, 3), (300, 12, 4)])
+def test_constant_correlation_formula_matches_loop(T, k, seed):
+    X = _sample(T, k, seed)
+    fast, delta_fast, _ = constant_correlation_shrinkage(X)
+    ref, delta, _ = _constant_correlation_loop(X)
+    np.testing.assert_allclose(fast, ref, rtol=1e-10, atol=1e-12)
+    assert delta_fast == pytest.approx(delta, rel=1e-10, abs=1e-12)
 
 
 @pytest.mark.parametrize("T, k, seed", [(40, 6, 3), (300, 12, 4)])
 def test_constant_correlation_matches_loop(T, k, seed):
     X = _sample(T, k, seed)
     est = estimate_covariance(X, "constant-correlation")
-    ref, delta, _ = _constant_correlation_loop(X)
-    np.testing.assert_allclose(est.matrix, ref, rtol=1e-10, atol=1e-12)
+    Z, sd = _standardise(X)
+    ref, delta, _ = _constant_correlation_loop(Z)
+    np.testing.assert_allclose(est.matrix, ref * np.outer(sd, sd), rtol=1e-10, atol=1e-12)
     assert est.shrinkage == pytest.approx(delta, rel=1e-10, abs=1e-12)
     assert 0.0 <= est.shrinkage <= 1.0
     np.testing.assert_allclose(est.matrix, est.matrix.T)
     assert np.linalg.eigvalsh(est.matrix).min() > -1e-12
+
+
+@pytest.mark.parametrize("method", ESTIMATORS)
+def test_every_estimator_is_unit_equivariant(method):
+    # re-quoting a series (USD/bbl -> USD/gal divides by 42, MMBtu -> GJ by 1.055056) scales
+    # its changes; the covariance must scale with them: Σ(X A) = A Σ(X) A for diagonal A > 0
+    X = _sample(120, 5, 11)
+    a = np.array([1.0, 1.0 / 42.0, 1.0 / 1.055056, 1e3, 1.0])
+    base = estimate_covariance(X, method)
+    scaled = estimate_covariance(X * a, method)
+    np.testing.assert_allclose(scaled.matrix, base.matrix * np.outer(a, a), rtol=1e-10)
+    if base.shrinkage is not None:
+        assert scaled.shrinkage == pytest.approx(base.shrinkage, rel=1e-10, abs=1e-14)
+
+
+@pytest.mark.parametrize("method", ["ledoit-wolf", "oas", "constant-correlation"])
+def test_series_that_does_not_move_is_left_out_of_shrinkage(method):
+    X = _sample(60, 4, 12)
+    X[:, 2] = 3.0
+    est = estimate_covariance(X, method)
+    np.testing.assert_array_equal(est.matrix[2], 0.0)
+    np.testing.assert_array_equal(est.matrix[:, 2], 0.0)
+    rest = estimate_covariance(np.delete(X, 2, axis=1), method)
+    keep = [0, 1, 3]
+    np.testing.assert_allclose(est.matrix[np.ix_(keep, keep)], rest.matrix, rtol=1e-12)
 
 
 def test_constant_correlation_clips_at_one():
@@ -104,9 +155,10 @@ def test_constant_correlation_clips_at_one():
     rng = np.random.default_rng(10)
     X = 0.7 * rng.normal(size=(40, 1)) + 0.5 * rng.normal(size=(40, 4))
     est = estimate_covariance(X, "constant-correlation")
-    ref, delta, _ = _constant_correlation_loop(X)
+    Z, sd = _standardise(X)
+    ref, delta, _ = _constant_correlation_loop(Z)
     assert delta == 1.0 and est.shrinkage == 1.0
-    np.testing.assert_allclose(est.matrix, ref, rtol=1e-10)
+    np.testing.assert_allclose(est.matrix, ref * np.outer(sd, sd), rtol=1e-10)
 
 
 def test_constant_correlation_hand_sized_example():
@@ -123,8 +175,9 @@ def test_constant_correlation_hand_sized_example():
         ]
     )
     est = estimate_covariance(X, "constant-correlation")
-    ref, delta, r_bar = _constant_correlation_loop(X)
-    np.testing.assert_allclose(est.matrix, ref, rtol=1e-10)
+    Z, sd = _standardise(X)
+    ref, delta, r_bar = _constant_correlation_loop(Z)
+    np.testing.assert_allclose(est.matrix, ref * np.outer(sd, sd), rtol=1e-10)
     assert est.shrinkage == pytest.approx(delta, abs=1e-12)
     # source: numpy.corrcoef (reference library): r̄ is the mean off-diagonal correlation
     corr = np.corrcoef(X, rowvar=False)
@@ -151,11 +204,11 @@ def test_constant_correlation_target_structure():
     np.testing.assert_allclose(corr_F[off], r_bar, rtol=1e-9)
 
 
-def test_constant_correlation_zero_variance_names_column():
+def test_constant_correlation_formula_zero_variance_names_column():
     X = _sample(30, 3, 6)
     X[:, 1] = 2.0
     with pytest.raises(InputError) as err:
-        estimate_covariance(X, "constant-correlation", columns=["a", "b", "c"])
+        constant_correlation_shrinkage(X, columns=["a", "b", "c"])
     assert err.value.column == "b"
 
 

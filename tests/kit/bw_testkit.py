@@ -137,3 +137,97 @@ def brute_force(qp: HedgeQP, value: Callable[[np.ndarray], float] | None = None)
         vals = np.array([value(x) for x in pts])
     best = vals.min()
     return float(best), [pts[i] for i in np.flatnonzero(vals <= best + 1e-12)]
+
+
+# --------------------------------------------------------------------------- backtest books
+
+TWO_SPOT_SERIES = {"spot_a": "USD/gal", "spot_b": "USD/gal", "fut_a": "USD/gal", "fut_b": "USD/bbl"}
+
+
+
+def two_spot_changes(n: int, seed: int) -> np.ndarray:
+    """Daily moves of two spot series driven by two futures (USD/gal, USD/bbl)."""
+    rng = np.random.default_rng(seed)
+    f = rng.normal(0.0, [0.02, 0.8], size=(n, 2))          # futures moves (USD/gal, USD/bbl)
+    sa = 0.9 * f[:, 0] + rng.normal(0.0, 0.006, n)
+    sb = 0.6 * f[:, 0] + 0.01 * f[:, 1] + rng.normal(0.0, 0.008, n)
+    return np.column_stack([sa, sb, f[:, 0], f[:, 1]])
+
+
+# --------------------------------------------------------------------------- rolled books
+
+# Invented product "ulsd" with four monthly contracts (all Fridays or weekdays).
+EXPIRIES = pd.DataFrame({
+    "contract": ["ULSD-2026-02", "ULSD-2026-03", "ULSD-2026-04", "ULSD-2026-05"],
+    "last_trade": ["2026-01-30", "2026-02-27", "2026-03-31", "2026-04-30"],
+    "product": ["ulsd", "ulsd", "ulsd", "ulsd"],
+})
+DATES = pd.bdate_range("2026-01-19", "2026-03-06")
+# roll_days = 2 business days before last_trade: 2026-01-30 (Fri) -> Wed 2026-01-28;
+# 2026-02-27 (Fri) -> Wed 2026-02-25. A contract is held through the close of its roll date.
+# common practice, no source
+
+
+def contract_prices(seed: int = 3) -> pd.DataFrame:
+    """Long table of invented prices: each contract a random walk, later months dearer."""
+    rng = np.random.default_rng(seed)
+    rows = []
+    for j, name in enumerate(EXPIRIES["contract"]):
+        walk = 2.5 + 0.15 * j + np.cumsum(rng.normal(0.0, 0.03, len(DATES)))
+        rows += [(d.strftime("%Y-%m-%d"), name, round(float(v), 4))
+                 for d, v in zip(DATES, walk, strict=True)]
+    return pd.DataFrame(rows, columns=["date", "contract", "price"])
+
+
+ROLLED_BOOK = """\
+[book]
+name = "Rolled fleet"
+horizon_days = 2
+
+[data]
+prices = "contracts.csv"
+format = "contracts"
+
+[data.roll]
+expiries = "expiries.csv"
+roll_days = 2
+adjust = "{adjust}"
+
+[series.ulsd_m1]
+unit = "USD/gal"
+
+[series.ulsd_m2]
+unit = "USD/gal"
+
+[series.rack_diesel]
+unit = "USD/gal"
+
+[[exposure]]
+id = "fleet"
+series = "rack_diesel"
+quantity = -500000.0
+unit = "gal"
+
+[[instrument]]
+id = "ULSD-M1"
+series = "ulsd_m1"
+contract_size = 42000
+unit = "gal"
+
+[[instrument]]
+id = "ULSD-M2"
+series = "ulsd_m2"
+contract_size = 42000
+unit = "gal"
+"""
+
+
+def write_rolled_book(folder, adjust="ratio"):
+    """A ``format = "contracts"`` book over ``contract_prices`` and a rack series; its path."""
+    prices = contract_prices()
+    rack = pd.DataFrame({"date": DATES.strftime("%Y-%m-%d"), "contract": "rack_diesel",
+                         "price": np.linspace(2.6, 2.9, len(DATES))})
+    pd.concat([prices, rack]).to_csv(folder / "contracts.csv", index=False)
+    EXPIRIES.to_csv(folder / "expiries.csv", index=False)
+    (folder / "book.toml").write_text(ROLLED_BOOK.format(adjust=adjust))
+    return folder / "book.toml"
