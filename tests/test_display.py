@@ -13,9 +13,9 @@ import pytest
 from rich.console import Console
 from typer.testing import CliRunner
 
-from optimizer.cli.app import app
-from optimizer.cli.render import Column, Grid, fit
-from scenarios import demo_book_path
+from basiswise.cli.app import app
+from basiswise.cli.render import Column, Grid, fit
+from basiswise.scenarios import demo_book_path
 
 runner = CliRunner()
 ROOT = Path(__file__).resolve().parents[1]
@@ -139,7 +139,7 @@ def test_a_grid_too_wide_is_split_and_keeps_its_key_column():
 
 
 def test_zero_has_no_sign():
-    from optimizer.cli.tables import money, num, pct
+    from basiswise.cli.tables import money, num, pct
 
     assert money(-0.0) == money(-0.4) == num(-0.001, 2) == "0" and pct(-1e-6) == "0 %"
 

@@ -11,9 +11,9 @@ import pandas as pd
 import pytest
 from typer.testing import CliRunner
 
-from optimizer.cli.app import app
-from optimizer.output_schema import markdown_table, validate
-from scenarios import demo_book_path
+from basiswise.cli.app import app
+from basiswise.optimizer.results.output_schema import markdown_table, validate
+from basiswise.scenarios import demo_book_path
 
 runner = CliRunner()
 ROOT = Path(__file__).resolve().parents[1]
@@ -300,7 +300,7 @@ def test_book_metavar_and_workers_flag_are_the_same_everywhere():
 
 
 def test_json_zero_has_no_sign():
-    from optimizer.jsonsafe import finite
+    from basiswise.optimizer.results.jsonsafe import finite
 
     got = json.dumps(finite({"a": -0.0, "b": [-0.0, float("nan")]}))
     assert got == '{"a": 0.0, "b": [0.0, null]}'
