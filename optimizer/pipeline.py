@@ -19,8 +19,7 @@ from basiswise.data_adapters.choices import RATIO_CHANGES
 from basiswise.data_adapters.errors import InputError
 from basiswise.data_adapters.prices import PricePanel, check_positive, load_prices
 
-from .estimation.changes import horizon_changes
-from .estimation.covariance import estimate_covariance
+from .estimation.estimate import estimate
 from .problem.conflicts import limit_conflicts
 from .problem.model import HedgeModel, build_hedge_model
 from .results.history_checks import history_warnings
@@ -110,7 +109,7 @@ def model_of(prep: Prepared, *, fractional: bool = False, prices=None, as_of=Non
     (:meth:`~data_adapters.prices.PricePanel.as_of`). ``prices`` replaces the panel's price
     frame as given; a slice of rolled levels would carry later rolls, so cut with ``as_of``.
     """
-    book, est = prep.book, prep.book.estimation
+    book = prep.book
     frame = prep.panel.prices if prices is None else prices
     if as_of is not None:
         if prices is not None:
@@ -120,21 +119,8 @@ def model_of(prep: Prepared, *, fractional: bool = False, prices=None, as_of=Non
             raise InputError(f"as_of {as_of} is before the first price date "
                              f"{prep.panel.first_date.date()}", key="as_of")
         frame = prep.panel.as_of(end)
-    try:
-        changes = horizon_changes(frame, horizon_days=book.book.horizon_days, kind=est.changes,
-                                  sampling=est.sampling, window=est.window)
-    except InputError as exc:
-        if exc.file is not None or exc.key not in ("book.horizon_days", "estimation.window"):
-            raise
-        # the settings come from the book: name it, and both keys when they clash
-        both = exc.key == "book.horizon_days"
-        raise InputError(f"{exc.message} ([estimation] window = {est.window} rows, [book] "
-                         f"horizon_days = {book.book.horizon_days})" if both else exc.message,
-                         file=book.source, column=exc.column,
-                         key="estimation.window / book.horizon_days" if both else exc.key
-                         ) from None
-    estimate = estimate_covariance(changes.values, est.estimator, ewma_lambda=est.ewma_lambda)
-    return build_hedge_model(book, changes, estimate, fractional=fractional)
+    changes, covariance = estimate(frame, book)
+    return build_hedge_model(book, changes, covariance, fractional=fractional)
 
 
 def solve_model(model: HedgeModel, method: str = "exact", *, time_limit: float = 30.0,

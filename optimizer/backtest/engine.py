@@ -49,8 +49,9 @@ from basiswise.data_adapters.choices import WHOLE_METHODS as _WHOLE_METHODS
 from basiswise.data_adapters.errors import InputError
 from basiswise.data_adapters.prices import PricePanel
 
-from ..estimation.changes import dollar_covariance, horizon_changes
-from ..estimation.covariance import ESTIMATORS, estimate_covariance
+from ..estimation.changes import dollar_covariance
+from ..estimation.covariance import ESTIMATORS
+from ..estimation.estimate import book_changes, book_covariance
 from ..pipeline import Prepared, prepare
 from ..problem.model import build_hedge_model, loadings
 from ..problem.qp import HedgeQP
@@ -359,8 +360,7 @@ def run_backtest(
     prev = {key: start.copy() for key in keys}
     fixed_one = None
     for r, t in enumerate(rows):
-        changes = horizon_changes(panel.as_of(t, t - W + 1), horizon_days=H, kind=est_cfg.changes,
-                                  sampling=est_cfg.sampling, window=None)
+        changes = book_changes(panel.as_of(t, t - W + 1), bk, window=None)
         sample_cov = dollar_covariance(
             np.atleast_2d(np.cov(changes.values, rowvar=False)), changes)
         v0_sample = predicted_variance(E, C, sample_cov, np.zeros(n))
@@ -379,9 +379,7 @@ def run_backtest(
                 cov, v0 = sample_cov, v0_sample
             else:
                 if name not in ests:
-                    ests[name] = estimate_covariance(changes.values, name,
-                                                     ewma_lambda=est_cfg.ewma_lambda,
-                                                     horizon_days=H, columns=changes.columns)
+                    ests[name] = book_covariance(changes, bk, estimator=name)
                 est = ests[name]
                 cov = dollar_covariance(est.matrix, changes)
                 v0 = predicted_variance(E, C, cov, np.zeros(n))

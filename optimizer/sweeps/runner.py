@@ -36,8 +36,7 @@ import numpy as np
 from basiswise.data_adapters.book import Book, Constraints, load_book
 from basiswise.data_adapters.errors import InputError
 
-from ..estimation.changes import horizon_changes
-from ..estimation.covariance import estimate_covariance
+from ..estimation.estimate import estimate
 from ..pipeline import prepare
 from ..problem.conflicts import limit_conflicts
 from ..problem.model import HedgeModel, build_hedge_model, with_limits
@@ -182,10 +181,7 @@ class SweepRunner:
         if key not in self._est:
             try:
                 book = self.book.with_overrides(**sc.estimation) if key else self.book
-                est = book.estimation
-                ch = horizon_changes(self.prep.panel.prices, horizon_days=book.book.horizon_days,
-                                     kind=est.changes, sampling=est.sampling, window=est.window)
-                cov = estimate_covariance(ch.values, est.estimator, ewma_lambda=est.ewma_lambda)
+                ch, cov = estimate(self.prep.panel.prices, book)
             except InputError as exc:
                 name = (exc.key or "estimation").split(".")[-1]
                 raise InputError(exc.message, file=self.source,
