@@ -6,9 +6,9 @@ the rebalance rows are ``t = W−1, W−1+k, …`` while ``t + H ≤ N−1``. At
 1. the horizon changes of rows ``t−W+1 … t`` only, as known on date ``t`` (rolled series
    back-adjusted with the rolls up to ``t`` and ending at the held contracts' real prices,
    :meth:`~data_adapters.prices.PricePanel.as_of`), are estimated with each covariance estimator;
-2. every strategy of :mod:`optimizer.strategies` picks its target positions ``n_t``; the joint
-   strategies solve the book's hedge problem with ``current`` = the strategy's previous target,
-   so liquidity limits apply to the change ``|n_t − n_{t−k}|``;
+2. every strategy of :mod:`optimizer.backtest.strategies` picks its target positions ``n_t``;
+   the joint strategies solve the book's hedge problem with ``current`` = the strategy's
+   previous target, so liquidity limits apply to the change ``|n_t − n_{t−k}|``;
 3. the realised P&L over the next horizon is recorded,
    ``exposures = Eᵀ1 · (P_{t+H} − P_t)`` and ``hedge leg = (Cᵀ n_t) · (P_{t+H} − P_t)``, together
    with the P&L over the holding period to the next rebalance, ``P_{t+k} − P_t`` (the path that
@@ -23,7 +23,7 @@ and trading cost ``Σ |trade| × cost_per_contract``. When ``k < H`` the horizon
 
 Every rebalance builds a problem of the same *structure* (the ``M`` factor padded to all series,
 every bound made finite), so the cvxpy problem is canonicalised once and re-solved through its
-Parameters (:func:`optimizer.formulation.formulation_for`).
+Parameters (:func:`optimizer.problem.formulation.formulation_for`).
 
 References
 ----------
@@ -298,9 +298,10 @@ def run_backtest(
     step : int, optional
         Business days between rebalances; defaults to the horizon.
     strategies : sequence of str
-        Names from :data:`optimizer.strategies.STRATEGIES`.
+        Names from :data:`optimizer.backtest.strategies.STRATEGIES`.
     estimators : sequence of str, optional
-        Names from :data:`optimizer.covariance.ESTIMATORS`; the book's estimator by default.
+        Names from :data:`optimizer.estimation.covariance.ESTIMATORS`; the book's estimator by
+        default.
     method : {"exact", "round"}
         How ``joint-whole`` reaches whole contracts.
     time_limit : float

@@ -29,7 +29,7 @@ def independent_observations(rows: int, horizon_days: int, sampling: str) -> int
 
 
 def history_warnings(model) -> list[str]:
-    """The short-history warnings of a built :class:`~optimizer.model.HedgeModel`."""
+    """The short-history warnings of a built :class:`~optimizer.problem.model.HedgeModel`."""
     ch = model.changes
     rows, k = ch.values.shape
     indep = independent_observations(rows, ch.horizon_days, ch.sampling)

@@ -6,8 +6,9 @@ Each scenario is solved as its own hedge problem. What is shared:
 - the covariance is estimated once per distinct estimation setting (horizon, window, estimator,
   sampling) and the model's loadings and factor ``M, u`` once per setting and instrument set;
 - scenarios that change only numbers (limits, ADV, participation, margins) keep the problem's
-  structure, so :func:`optimizer.formulation.formulation_for` hands back the one cached cvxpy
-  problem and only its Parameters change (``reuse=False`` rebuilds it every time, the baseline).
+  structure, so :func:`optimizer.problem.formulation.formulation_for` hands back the one cached
+  cvxpy problem and only its Parameters change (``reuse=False`` rebuilds it every time, the
+  baseline).
 
 Limits are checked for conflicts before solving (an instrument whose limits leave no room, a
 group whose members' minimum positions exceed the group limit, a margin budget below the margin
@@ -336,7 +337,7 @@ def run_sweep(book: Any, scenarios: ScenarioSet | list[Scenario], *, method: str
     book : Book, str or Path
         The book (a path is sent to workers as is; a Book as a dict with its folder).
     scenarios : ScenarioSet or list of Scenario
-        Validated scenarios (see :func:`optimizer.scenarios.load_scenarios`).
+        Validated scenarios (see :func:`optimizer.sweeps.scenario_file.load_scenarios`).
     method : {"exact", "round", "continuous"}
     workers : int
         1 runs serially in this process; more starts that many local worker processes.

@@ -1,9 +1,9 @@
 """Stress P&L of a book: explicit price shocks and the worst historical horizon move.
 
 With ``E`` (exposures × k) and ``C`` (instruments × k) the loadings of the book on its ``k`` price
-series (quantities in each series' price unit, see :mod:`optimizer.model`), ``n`` the futures
-positions in contracts and ``dP`` a vector of price moves in each series' price unit, the P&L of
-the book over the move is linear (currency; a loss is negative)::
+series (quantities in each series' price unit, see :mod:`optimizer.problem.model`), ``n`` the
+futures positions in contracts and ``dP`` a vector of price moves in each series' price unit,
+the P&L of the book over the move is linear (currency; a loss is negative)::
 
     unhedged = (Eᵀ1) · dP
     hedged   = (Eᵀ1 + Cᵀn) · dP

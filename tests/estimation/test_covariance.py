@@ -1,4 +1,4 @@
-"""Tests for optimizer.covariance against reference libraries and the published formulas."""
+"""Covariance estimators against reference libraries and the published formulas."""
 
 from __future__ import annotations
 
