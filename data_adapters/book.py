@@ -24,6 +24,7 @@ __all__ = [
     "Book",
     "BookMeta",
     "Constraints",
+    "CostSpec",
     "DataSpec",
     "EstimationSpec",
     "Exposure",
@@ -135,6 +136,17 @@ class Instrument(_Model):
     margin: float = Field(0.0, ge=0.0)
     cost_per_contract: float = Field(0.0, ge=0.0)
     contract_month: str | None = Field(None, pattern=r"^\d{4}-(0[1-9]|1[0-2])$")
+    # trading-cost model (see optimizer.costs): quoted bid-ask spread in the series' price unit,
+    # or in ticks with the currency value of one tick per contract; square-root impact coefficient
+    spread: float | None = Field(None, ge=0.0)
+    spread_ticks: float | None = Field(None, ge=0.0)
+    tick_value: float | None = Field(None, ge=0.0)
+    impact_coefficient: float | None = Field(None, ge=0.0)
+    min_trade: int | None = Field(None, ge=1)
+    # passed through to the trade list for the execution desk (free text / a date)
+    symbol: str | None = None
+    exchange: str | None = None
+    last_trade: date | None = None
 
     def bounds(self) -> tuple[float, float]:
         """Position bounds in contracts, ``(-inf, inf)`` when unlimited."""
@@ -151,6 +163,25 @@ class GroupLimit(_Model):
     id: str = Field(min_length=1)
     instruments: list[str] = Field(min_length=1)
     limit: float = Field(gt=0.0)
+
+
+class CostSpec(_Model):
+    """``[costs]``: how trading cost enters the hedge problem (see :mod:`optimizer.costs`).
+
+    ``price_of_risk``: book currency the desk is willing to pay in trading cost to raise the
+    variance reduction by one percentage point (of the unhedged variance); the problem then
+    minimises hedged variance plus cost at that price. ``budget``: the most the trades may cost
+    (book currency); the problem minimises variance under it. Give one or neither (then cost is
+    only reported). ``no_trade_ratio``: a line is left alone unless trading it, on its own from
+    the current book, removes at least this much P&L std (currency) per unit of its cost
+    (currency). ``min_trade``: smallest trade in contracts on any line (0 or at least this).
+    """
+
+    price_of_risk: float | None = Field(None, gt=0.0)
+    budget: float | None = Field(None, gt=0.0)
+    no_trade_ratio: float | None = Field(None, gt=0.0)
+    min_trade: int | None = Field(None, ge=1)
+    frontier_points: int = Field(9, ge=2, le=60)
 
 
 class Constraints(_Model):
@@ -172,6 +203,7 @@ _PATTERN_WORDS = {
 }
 _ID_TABLES = ("exposure", "instrument", "group_limit")
 
+_EXCLUSIVE = {"price_of_risk": "budget", "budget": "price_of_risk"}
 _OVERRIDES = {
     "estimator": "estimation",
     "window": "estimation",
@@ -179,6 +211,8 @@ _OVERRIDES = {
     "sampling": "estimation",
     "ewma_lambda": "estimation",
     "horizon_days": "book",
+    "price_of_risk": "costs",
+    "budget": "costs",
 }
 
 
@@ -193,6 +227,7 @@ class Book(_Model):
     instruments: list[Instrument] = Field(default_factory=list, alias="instrument")
     group_limits: list[GroupLimit] = Field(default_factory=list, alias="group_limit")
     constraints: Constraints = Constraints()
+    costs: CostSpec = CostSpec()
 
     _path: Path = PrivateAttr(default=Path("book.toml"))
     _source: str = PrivateAttr(default="book.toml")
@@ -276,7 +311,10 @@ class Book(_Model):
                     f"unknown override; allowed: {', '.join(_OVERRIDES)}", key=name
                 )
             if value is not None:
-                data[_OVERRIDES[name]][name] = value
+                section = data.setdefault(_OVERRIDES[name], {})
+                section[name] = value
+                if name in _EXCLUSIVE:  # a cost budget replaces a price of risk and back
+                    section.pop(_EXCLUSIVE[name], None)
         return Book.from_dict(data, self.folder, f"{self._source} (with overrides)")
 
 
@@ -385,6 +423,10 @@ def _check(book: Book, source: str) -> None:
                 file=source,
                 key=f"{where}.min_position",
             )
+
+    from data_adapters.book_costs import check_costs
+
+    check_costs(book, source)
 
     for group in book.group_limits:
         where = f"group_limit {group.id!r}"
