@@ -36,13 +36,14 @@ def ranking_table(result) -> Table:
                        ("realised VR", "right"), ("in-sample VR", "right"),
                        (f"hedged std {cur}", "right"), (f"worst {h}-d loss {cur}", "right"),
                        ("contracts traded", "right"), (f"trading cost {cur}", "right"),
-                       ("held", "right")]:
+                       ("net VR", "right"), ("held", "right")]:
         wide = {"strategy": 16, "estimator": 11}.get(name)
         t.add_column(name, justify=just, min_width=wide, no_wrap=wide is not None)
-    for rank, m in enumerate(result.metrics(), 1):
+    for rank, m in enumerate(result.metrics(getattr(result, "rank_by", "gross")), 1):
         t.add_row(str(rank), m.strategy, m.estimator or "—", pct(m.variance_reduction),
                   pct(m.predicted_vr), money(m.hedged_std), money(m.worst_loss),
-                  num(m.contracts_traded), money(m.trading_cost), str(m.held))
+                  num(m.contracts_traded), money(m.trading_cost),
+                  pct(m.net_variance_reduction, 2), str(m.held))
     return t
 
 
@@ -96,12 +97,15 @@ def register(app: typer.Typer) -> None:
         from optimizer.cautions import CAUTIONS
         from optimizer.covariance import ESTIMATORS
         from optimizer.effectiveness import EVIDENCE_NOTE
-        from optimizer.strategies import STRATEGIES
+        from optimizer.strategies import ALL_STRATEGIES, STRATEGIES
 
         if method not in WHOLE_METHODS:
             fail(f"unknown method '{method}'; valid: {', '.join(WHOLE_METHODS)}")
         prep = prepare(book, window=window, horizon_days=horizon)
-        strat = _names(strategies, STRATEGIES, list(STRATEGIES), "strategy")
+        default = list(STRATEGIES)
+        if prep.book.costs.price_of_risk is not None or prep.book.costs.budget is not None:
+            default.append("joint-whole-cost")  # the book prices its trades: compare net
+        strat = _names(strategies, ALL_STRATEGIES, default, "strategy")
         ests = _names(estimators, ESTIMATORS, [prep.book.estimation.estimator], "estimator")
         with Progress(TextColumn("backtest"), BarColumn(), MofNCompleteColumn(),
                       TimeElapsedColumn(), console=err, transient=True,
