@@ -1,0 +1,108 @@
+"""Execution side of a hedge: the schedule, the no-trade rule, the demo's cost output and files."""
+
+from __future__ import annotations
+
+import json
+import math
+import shutil
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from typer.testing import CliRunner
+
+from optimizer.api import model_of, prepare, solve_book
+from optimizer.cli.app import app
+from optimizer.cost_problem import no_trade_box
+from optimizer.schedule import daily_caps, execution_schedule
+
+DEMO = Path(__file__).resolve().parents[1] / "scenarios" / "demo"
+
+
+@pytest.fixture(scope="module")
+def demo_model():
+    return model_of(prepare(DEMO / "book.toml"))
+
+
+def test_schedule_never_exceeds_the_cap_and_sums_to_the_trade(demo_model):
+    rng = np.random.default_rng(1)
+    caps = daily_caps(demo_model.book)
+    lo = np.where(np.isfinite(demo_model.qp.lo), demo_model.qp.lo, -60)
+    hi = np.where(np.isfinite(demo_model.qp.hi), demo_model.qp.hi, 60)
+    for _ in range(25):
+        target = np.array([float(rng.integers(a, b + 1)) for a, b in zip(lo, hi, strict=True)])
+        plan = execution_schedule(demo_model, target)
+        trades = plan["trades"]
+        assert np.all(np.abs(trades) <= caps + 1e-9)
+        np.testing.assert_array_equal(trades.sum(axis=0), target - demo_model.current)
+        # every day's trade moves towards the target (no round trips)
+        assert np.all(trades * np.sign(target - demo_model.current) >= 0)
+        need = np.max(np.ceil(np.abs(target - demo_model.current) / caps))
+        assert plan["days"] == max(int(need), 1 if np.any(target != demo_model.current) else 0)
+        assert len(plan["std_end_of_day"]) == plan["days"]
+        if plan["days"]:
+            assert plan["std_end_of_day"][-1] == pytest.approx(
+                math.sqrt(demo_model.variance(target)))
+
+
+def test_demo_has_a_line_that_needs_more_than_a_day():
+    rep = solve_book(DEMO / "book.toml")
+    assert rep.schedule["needed"] and rep.schedule["days"] >= 2
+    tc = rep.trading_cost
+    assert tc["total"] == pytest.approx(tc["fixed"] + tc["spread"] + tc["impact"])
+    assert tc["total"] == pytest.approx(sum(ln["total"] for ln in tc["lines"]))
+    assert tc["risk_removed_std"] > 0
+
+
+def test_no_trade_rule_box_is_the_rule_itself(demo_model):
+    qp0 = demo_model.qp
+    theta = 60.0
+    s0 = demo_model.unhedged_std
+    lo, hi, frozen = no_trade_box(qp0, demo_model.costs, theta, demo_model.current, s0)
+    x0 = demo_model.current
+    sigma0 = s0 * math.sqrt(qp0.variance(x0))
+    for j in range(qp0.n):
+        for t in range(int(qp0.lo[j] - x0[j]), int(qp0.hi[j] - x0[j]) + 1):
+            if t == 0:
+                continue
+            x = x0.copy()
+            x[j] += t
+            removed = sigma0 - s0 * math.sqrt(qp0.variance(x))
+            cost = demo_model.costs.linear[j] * abs(t) + demo_model.costs.impact[j] * abs(t) ** 1.5
+            inside = lo[j] <= x[j] <= hi[j]
+            # the rule by its definition: trade allowed iff it removes ≥ θ × its cost
+            assert inside == (removed >= theta * cost), (j, t)
+    assert frozen.any() or np.all(hi > lo)
+
+
+def test_solve_json_carries_costs_schedule_and_provenance(tmp_path):
+    folder = tmp_path / "demo"
+    shutil.copytree(DEMO, folder)
+    trades = tmp_path / "trades.csv"
+    res = CliRunner().invoke(app, ["solve", str(folder / "book.toml"), "--json", "--trades",
+                                   str(trades), "--no-frontier"])
+    assert res.exit_code == 0, res.output
+    d = json.loads(res.stdout)
+    assert d["trading_cost"]["total"] > 0 and d["schedule"]["needed"]
+    assert d["provenance"]["book_sha256"] and d["provenance"]["as_of"] == "2025-12-19"
+    frame = pd.read_csv(trades)
+    assert frame["instrument"].is_unique  # one row per instrument
+    for col in ("symbol", "exchange", "last_trade", "cost_total_USD", "book_sha256",
+                "prices_sha256", "tool_version", "as_of"):
+        assert col in frame.columns
+    sched = pd.read_csv(tmp_path / "trades_schedule.csv")
+    assert sched.groupby("instrument")["contracts"].sum().to_dict() == \
+        frame.set_index("instrument")["contracts"].to_dict()
+
+
+def test_bad_cost_key_writes_nothing(tmp_path):
+    folder = tmp_path / "demo"
+    shutil.copytree(DEMO, folder)
+    book = folder / "book.toml"
+    book.write_text(book.read_text().replace("spread_ticks = 2.00", "spread_ticks = -2.00", 1))
+    trades = tmp_path / "trades.csv"
+    res = CliRunner().invoke(app, ["solve", str(book), "--trades", str(trades)])
+    assert res.exit_code == 2
+    assert "spread_ticks" in res.output
+    assert not trades.exists() and not (tmp_path / "trades_schedule.csv").exists()
