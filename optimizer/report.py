@@ -128,6 +128,7 @@ def build_report(model: HedgeModel, sol: HedgeSolution, notes: list[str] | None 
         # round-off when the whole-contract point is itself the continuous optimum
         rel_obj = min(rel_obj, sol.objective)
     rel_std = math.sqrt(max(rel_obj, 0.0)) * s0 if rel_obj is not None else None
+    diag = sol
     if model.qp.cost is not None and sol.relaxed.x is not None:
         # the cost-aware relaxation's value mixes risk and cost: bound the risk on its own
         from dataclasses import replace as _replace
@@ -136,6 +137,8 @@ def build_report(model: HedgeModel, sol: HedgeSolution, notes: list[str] | None 
 
         risk_only = solve_relaxed(_replace(model.qp, cost=None), reuse=False)
         rel_obj = risk_only.objective
+        if risk_only.x is not None:  # shadow prices: risk removed per unit of limit
+            diag = _replace(sol, relaxed=risk_only)
         rel_std = math.sqrt(max(rel_obj, 0.0)) * s0 if rel_obj is not None else None
     hedged = vr = cost = None
     inst, expo, limits = [], [], []
@@ -147,9 +150,9 @@ def build_report(model: HedgeModel, sol: HedgeSolution, notes: list[str] | None 
         cost = max(hedged - rel_std, 0.0) if rel_std is not None else None
         if model.qp.cost is not None:
             cost = None  # the gap to the risk-only bound is partly chosen (cost saved)
-        inst = instrument_lines(model, sol)
+        inst = instrument_lines(model, diag)
         expo = exposure_lines(model, x)
-        limits = limit_lines(model, sol)
+        limits = limit_lines(model, diag)
         margin_used = float(sum(i.margin for i in inst))
         if sol.status == "time-limited":
             notes.append(f"whole-contract search stopped at its time limit: {sol.detail}; the "

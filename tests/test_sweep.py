@@ -102,8 +102,13 @@ def test_stress_pnl_equals_numpy_on_the_model(demo, serial):
         float((model.E.sum(0) + model.C.T @ n) @ dP), rel=1e-10)
 
 
-def test_wide_limits_reach_the_unconstrained_optimum(demo):
+def test_wide_limits_reach_the_unconstrained_optimum(demo, tmp_path):
     path, _ = demo
+    for name in ("book.toml", "prices.csv"):  # the variance-only problem: no [costs] table
+        shutil.copyfile(path.parent / name, tmp_path / name)
+    text = (tmp_path / "book.toml").read_text()
+    (tmp_path / "book.toml").write_text(text.split("\n[costs]")[0] + "\n")
+    path = tmp_path / "book.toml"
     book = load_book(path)
     ss = parse_scenarios({"sweep": {"include_base": False}, "scenario": [
         {"name": "free", "limit_scale": 1e4, "adv_scale": 1e6, "margin_budget": 1e12}]}, book)
