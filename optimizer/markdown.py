@@ -68,6 +68,9 @@ def to_markdown(r: HedgeReport, *, source: str = "", now: datetime | None = None
                     "(continuous relaxation).", "",
                     _table(["limit", "kind", f"shadow price {cur}", "per"],
                            [[x.name, x.kind, _m(x.shadow), x.unit] for x in binding]), ""]
+    from .cost_markdown import execution_sections
+
+    out += execution_sections(r)
     if r.notes:
         out += ["## Notes", ""] + [f"- {n}" for n in r.notes] + [""]
     out += ["## Cautions", ""] + [f"- {c}" for c in r.cautions] + [""]

@@ -163,7 +163,7 @@ def report(
 
     if method not in ("exact", "round", "continuous"):
         fail(f"unknown method '{method}'; valid: exact, round, continuous")
-    rep = solve_book(book, method, time_limit=time_limit)
+    rep = solve_book(book, method, time_limit=time_limit, frontier=True)
     if not rep.ok:
         fail(f"{book}: no feasible hedge ({rep.status}); no report written", EXIT_NO_HEDGE)
     write_text_atomic(to_markdown(rep, source=str(book)), output)

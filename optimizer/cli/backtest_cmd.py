@@ -25,8 +25,8 @@ def _names(text: str | None, valid: tuple[str, ...], default: list[str], what: s
     return names
 
 
-def ranking_table(result) -> Table:
-    """Runs ranked by realised out-of-sample variance reduction."""
+def ranking_table(result, rank: str = "gross") -> Table:
+    """Runs ranked by realised out-of-sample variance reduction (gross or net of cost)."""
     cur, h = result.currency, result.horizon_days
     t = Table(title=f"Backtest — {result.book.book.name}: {len(result.dates)} rebalances every "
                     f"{result.step} days, {h}-day horizon, window {result.window} rows "
@@ -39,8 +39,8 @@ def ranking_table(result) -> Table:
                        ("net VR", "right"), ("held", "right")]:
         wide = {"strategy": 16, "estimator": 11}.get(name)
         t.add_column(name, justify=just, min_width=wide, no_wrap=wide is not None)
-    for rank, m in enumerate(result.metrics(getattr(result, "rank_by", "gross")), 1):
-        t.add_row(str(rank), m.strategy, m.estimator or "—", pct(m.variance_reduction),
+    for pos, m in enumerate(result.metrics(rank), 1):
+        t.add_row(str(pos), m.strategy, m.estimator or "—", pct(m.variance_reduction),
                   pct(m.predicted_vr), money(m.hedged_std), money(m.worst_loss),
                   num(m.contracts_traded), money(m.trading_cost),
                   pct(m.net_variance_reduction, 2), str(m.held))
@@ -89,6 +89,8 @@ def register(app: typer.Typer) -> None:
         png: Path | None = typer.Option(None, "--png", help="Write the cumulative P&L chart."),
         workers: int = typer.Option(1, "--workers",
                                     help="Local processes (one estimator per job)."),
+        rank: str = typer.Option("gross", "--rank",
+                                 help="Rank by realised VR gross or net of trading cost."),
     ) -> None:
         """Rolling out-of-sample backtest: each strategy and estimator, ranked by realised
         variance reduction, with hedge-effectiveness evidence."""
@@ -99,6 +101,8 @@ def register(app: typer.Typer) -> None:
         from optimizer.effectiveness import EVIDENCE_NOTE
         from optimizer.strategies import ALL_STRATEGIES, STRATEGIES
 
+        if rank not in ("gross", "net"):
+            fail(f"unknown ranking '{rank}'; valid: gross, net")
         if method not in WHOLE_METHODS:
             fail(f"unknown method '{method}'; valid: {', '.join(WHOLE_METHODS)}")
         prep = prepare(book, window=window, horizon_days=horizon)
@@ -129,7 +133,7 @@ def register(app: typer.Typer) -> None:
         if as_json:
             print(json.dumps(result.to_dict(), indent=2))
             return
-        out.print(ranking_table(result))
+        out.print(ranking_table(result, rank))
         out.print("[dim]VR = variance reduction 1 − Var(hedged)/Var(unhedged) of the realised "
                   "horizon P&Ls; in-sample VR = what the estimate promised; held = rebalances "
                   "where the previous positions were kept.[/]")
