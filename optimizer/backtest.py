@@ -310,7 +310,8 @@ def run_backtest(
     reuse : bool
         Re-use the canonicalised cvxpy problem (``False`` rebuilds it every time: the baseline).
     prices : DataFrame, optional
-        Price panel to use instead of the book's file (columns = the book's series).
+        Plain price levels to use instead of the book's file (columns = the book's series),
+        each row taken as known on its date; not for globally back-adjusted rolled levels.
     progress : callable, optional
         Called as ``progress(done, total)`` after each rebalance date.
     """

@@ -89,3 +89,65 @@ def adapters_book_path(tmp_path, adapters_book_text, adapters_prices_frame):
     path = tmp_path / "book.toml"
     path.write_text(adapters_book_text, encoding="utf-8")
     return path
+
+
+# --------------------------------------------------------------------------- PostgreSQL server
+# Tests that need a real PostgreSQL server take the ``postgres_url`` fixture. `.ci/run` starts a
+# throwaway cluster and exports BASISWISE_TEST_POSTGRES_URL; without it the fixture starts its own
+# cluster from the server binaries on PATH (initdb, pg_ctl), as the `postgres` user when run as
+# root (the server refuses to run as root). Under CI a missing server is a failure, not a skip.
+
+POSTGRES_ENV = "BASISWISE_TEST_POSTGRES_URL"
+
+
+def _free_port() -> int:
+    import socket
+
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return int(s.getsockname()[1])
+
+
+def _as_server_user(cmd: list[str]) -> list[str]:
+    import os
+    import shutil
+
+    if os.geteuid() == 0 and shutil.which("runuser"):
+        return ["runuser", "-u", "postgres", "--", *cmd]
+    return cmd
+
+
+@pytest.fixture(scope="session")
+def postgres_url():
+    """SQLAlchemy URL of a live, empty-to-start PostgreSQL server on 127.0.0.1."""
+    import os
+    import shutil
+    import subprocess
+    import tempfile
+    from pathlib import Path
+
+    url = os.environ.get(POSTGRES_ENV)
+    if url:
+        yield url
+        return
+    if not (shutil.which("initdb") and shutil.which("pg_ctl")):
+        if os.environ.get("CI"):
+            pytest.fail("PostgreSQL server binaries (initdb, pg_ctl) are not on PATH")
+        pytest.skip("PostgreSQL server binaries (initdb, pg_ctl) are not on PATH")
+    # not under pytest's tmp folder: that one is private to root, the server user must enter it
+    root = Path(tempfile.mkdtemp(prefix="basiswise-pg-"))
+    if os.geteuid() == 0:
+        shutil.chown(root, "postgres")
+    data, port = root / "data", _free_port()
+    subprocess.run(_as_server_user(["initdb", "-D", str(data), "-A", "trust", "-U", "postgres",
+                                    "--no-sync"]), check=True, capture_output=True)
+    subprocess.run(_as_server_user([
+        "pg_ctl", "-D", str(data), "-l", str(root / "log"), "-w", "-o",
+        f"-p {port} -k {root} -c listen_addresses=127.0.0.1 -c fsync=off", "start"]),
+        check=True, capture_output=True)
+    try:
+        yield f"postgresql+psycopg://postgres@127.0.0.1:{port}/postgres"
+    finally:
+        subprocess.run(_as_server_user(["pg_ctl", "-D", str(data), "-m", "fast", "-w", "stop"]),
+                       capture_output=True)
+        shutil.rmtree(root, ignore_errors=True)
