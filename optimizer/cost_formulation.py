@@ -15,6 +15,7 @@ representation of ``t^p``; from memory).
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import replace
 
 import cvxpy as cp
@@ -73,7 +74,9 @@ def _solve(qp: HedgeQP, integer: bool, **kwargs) -> FormulationResult:
     if not integer:
         kwargs.update(tol_gap_abs=1e-10, tol_gap_rel=1e-10, tol_feas=1e-10)
     try:
-        prob.solve(solver=solver, **kwargs)
+        with warnings.catch_warnings():  # "optimal_inaccurate" is reported in the status
+            warnings.simplefilter("ignore", UserWarning)
+            prob.solve(solver=solver, **kwargs)
     except cp.error.SolverError as exc:
         return FormulationResult(status=f"solver_error: {exc}", x=None, objective=None,
                                  solver=solver)
