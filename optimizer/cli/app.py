@@ -37,7 +37,7 @@ def _schedule_path(trades: Path | None, schedule: Path | None, report) -> Path |
     return None
 
 
-def _write_execution(report, trades, schedule, frontier_png) -> list[str]:
+def _write_execution(report, trades, schedule, frontier_png, frontier_csv=None) -> list[str]:
     from data_adapters.output import write_csv_atomic
     from optimizer.desk_fields import schedule_frame
 
@@ -46,6 +46,11 @@ def _write_execution(report, trades, schedule, frontier_png) -> list[str]:
     if path is not None:
         write_csv_atomic(schedule_frame(report), path)
         done.append(f"execution schedule written to [bold]{path}[/]")
+    if frontier_csv is not None and report.frontier:
+        import pandas as pd
+
+        write_csv_atomic(pd.DataFrame(report.frontier), frontier_csv)
+        done.append(f"risk–cost frontier written to [bold]{frontier_csv}[/]")
     if frontier_png is not None and report.frontier:
         from optimizer.cost_frontier import FrontierPoint, write_cost_frontier_png
 
@@ -57,7 +62,7 @@ def _write_execution(report, trades, schedule, frontier_png) -> list[str]:
 
 
 def _solve_and_show(book, method, trades, as_json, time_limit, schedule=None,
-                    frontier_png=None, frontier=True, **overrides) -> None:
+                    frontier_png=None, frontier=True, frontier_csv=None, **overrides) -> None:
     from optimizer.api import solve_book
 
     from .cost_tables import print_execution
@@ -81,7 +86,7 @@ def _solve_and_show(book, method, trades, as_json, time_limit, schedule=None,
              EXIT_NO_HEDGE)
     if trades is not None:
         _write_trades(report, trades)
-    written = _write_execution(report, trades, schedule, frontier_png)
+    written = _write_execution(report, trades, schedule, frontier_png, frontier_csv)
     if as_json:
         print(json.dumps(report.to_dict(), indent=2))
     else:
@@ -117,12 +122,15 @@ def solve(
         None, "--frontier-png", help="Write the risk–cost frontier chart (PNG)."),
     frontier: bool = typer.Option(True, "--frontier/--no-frontier",
                                   help="Compute the risk–cost frontier (several solves)."),
+    frontier_csv: Path | None = typer.Option(
+        None, "--frontier-csv", help="Write the risk–cost frontier points (CSV)."),
 ) -> None:
     """Solve the book's hedge and show it; optionally write the trade list and schedule."""
     if price_of_risk is not None and cost_budget is not None:
         fail("give --price-of-risk or --cost-budget, not both")
     _solve_and_show(book, method, trades, as_json, time_limit, schedule=schedule,
-                    frontier_png=frontier_png, frontier=frontier, estimator=estimator,
+                    frontier_png=frontier_png, frontier=frontier, frontier_csv=frontier_csv,
+                    estimator=estimator,
                     window=window, horizon_days=horizon, changes=changes, sampling=sampling,
                     price_of_risk=price_of_risk, budget=cost_budget)
 
