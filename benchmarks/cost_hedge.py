@@ -62,7 +62,17 @@ def backtest_part() -> list[str]:
     share = cost.contracts_traded / base.contracts_traded
     dvr = 100 * (base.variance_reduction - cost.variance_reduction)
     beat = cost.net_variance_reduction - single.net_variance_reduction
+    por = res.book.costs.price_of_risk
+    for f in (0.25, 4.0):  # how the trade-off moves with the price of risk
+        other = run_backtest(BOOK, strategies=["joint-whole-cost"], method="exact",
+                             price_of_risk=por * f).metrics()[0]
+        lines.append(f"{'  at P = ' + format(por * f, ',.0f'):18s} "
+                     f"{100 * other.variance_reduction:8.2f}% "
+                     f"{100 * other.net_variance_reduction:8.2f}% "
+                     f"{other.contracts_traded:10.0f} {other.trading_cost:10,.0f} "
+                     f"{other.turnover:14,.0f}")
     lines += [
+        f"(joint-whole-cost above at the book's P = {por:,.0f} USD per point of VR)",
         f"goal contracts ≤ 1/2 of joint-whole: {share:.2f} of it — "
         f"{'met' if share <= 0.5 else 'not met'}",
         f"goal VR within 0.5 pp of joint-whole: {dvr:+.2f} pp below — "

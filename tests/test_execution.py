@@ -106,3 +106,31 @@ def test_bad_cost_key_writes_nothing(tmp_path):
     assert res.exit_code == 2
     assert "spread_ticks" in res.output
     assert not trades.exists() and not (tmp_path / "trades_schedule.csv").exists()
+
+
+def test_backtest_charges_every_run_the_cost_model_and_runs_the_cost_aware_hedge():
+    from optimizer.backtest import run_backtest
+
+    res = run_backtest(DEMO / "book.toml", step=120, window=300, method="exact",
+                       strategies=["joint-whole", "joint-whole-cost"])
+    plain, aware = res.run("joint-whole", "ledoit-wolf"), res.run("joint-whole-cost",
+                                                                  "ledoit-wolf")
+    for run in (plain, aware):
+        assert run.costs.shape == (len(res.dates),) and np.all(run.costs >= 0)
+        assert np.all((run.costs > 0) == np.any(run.trades != 0, axis=1))
+    # pricing the trades in makes the hedge trade less than the variance-only one on the demo
+    assert np.abs(aware.trades).sum() <= np.abs(plain.trades).sum()
+    m = {x.strategy: x for x in res.metrics("net")}
+    assert m["joint-whole-cost"].trading_cost == pytest.approx(float(aware.costs.sum()))
+
+
+def test_cost_aware_strategy_needs_a_cost_setting(tmp_path):
+    from data_adapters.errors import InputError
+    from optimizer.backtest import run_backtest
+
+    folder = tmp_path / "demo"
+    shutil.copytree(DEMO, folder)
+    book = folder / "book.toml"
+    book.write_text(book.read_text().split("\n[costs]")[0] + "\n")
+    with pytest.raises(InputError, match="costs.price_of_risk"):
+        run_backtest(book, step=120, window=300, strategies=["joint-whole-cost"])
