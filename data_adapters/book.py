@@ -16,6 +16,7 @@ from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, field_validator
 
+from data_adapters.book_costs import CostSpec, check_costs
 from data_adapters.errors import InputError, from_validation_error
 from data_adapters.toml_file import read_toml
 from data_adapters.units import parse_price_unit, units_in_price_unit
@@ -163,25 +164,6 @@ class GroupLimit(_Model):
     id: str = Field(min_length=1)
     instruments: list[str] = Field(min_length=1)
     limit: float = Field(gt=0.0)
-
-
-class CostSpec(_Model):
-    """``[costs]``: how trading cost enters the hedge problem (see :mod:`optimizer.costs`).
-
-    ``price_of_risk``: book currency the desk is willing to pay in trading cost to raise the
-    variance reduction by one percentage point (of the unhedged variance); the problem then
-    minimises hedged variance plus cost at that price. ``budget``: the most the trades may cost
-    (book currency); the problem minimises variance under it. Give one or neither (then cost is
-    only reported). ``no_trade_ratio``: a line is left alone unless trading it, on its own from
-    the current book, removes at least this much P&L std (currency) per unit of its cost
-    (currency). ``min_trade``: smallest trade in contracts on any line (0 or at least this).
-    """
-
-    price_of_risk: float | None = Field(None, gt=0.0)
-    budget: float | None = Field(None, gt=0.0)
-    no_trade_ratio: float | None = Field(None, gt=0.0)
-    min_trade: int | None = Field(None, ge=1)
-    frontier_points: int = Field(9, ge=2, le=60)
 
 
 class Constraints(_Model):
@@ -423,8 +405,6 @@ def _check(book: Book, source: str) -> None:
                 file=source,
                 key=f"{where}.min_position",
             )
-
-    from data_adapters.book_costs import check_costs
 
     check_costs(book, source)
 

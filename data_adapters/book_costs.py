@@ -10,12 +10,35 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
+from pydantic import BaseModel, ConfigDict, Field
+
 from data_adapters.errors import InputError
 
 if TYPE_CHECKING:
     from data_adapters.book import Book, Instrument
 
-__all__ = ["check_costs", "has_cost_model"]
+__all__ = ["CostSpec", "check_costs", "has_cost_model"]
+
+
+class CostSpec(BaseModel):
+    """``[costs]``: how trading cost enters the hedge problem (see :mod:`optimizer.costs`).
+
+    ``price_of_risk``: book currency the desk is willing to pay in trading cost to raise the
+    variance reduction by one percentage point (of the unhedged variance); the problem then
+    minimises hedged variance plus cost at that price. ``budget``: the most the trades may cost
+    (book currency); the problem minimises variance under it. Give one or neither (then cost is
+    only reported). ``no_trade_ratio``: a line is left alone unless trading it, on its own from
+    the current book, removes at least this much P&L std (currency) per unit of its cost
+    (currency). ``min_trade``: smallest trade in contracts on any line (0 or at least this).
+    """
+
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=True, allow_inf_nan=False)
+
+    price_of_risk: float | None = Field(None, gt=0.0)
+    budget: float | None = Field(None, gt=0.0)
+    no_trade_ratio: float | None = Field(None, gt=0.0)
+    min_trade: int | None = Field(None, ge=1)
+    frontier_points: int = Field(9, ge=2, le=60)
 
 
 def _line_has_cost(inst: Instrument) -> bool:

@@ -46,6 +46,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.linalg.lapack import dtrtri
 
+from .integer_cost_levels import cost_limit, cost_weight, psi_min_costs
 from .integer_native import native_search, run_active_set
 from .qp import HedgeQP
 
@@ -90,30 +91,6 @@ def _psi_min(slope: np.ndarray, absw: np.ndarray, z: np.ndarray,
     return np.minimum.reduce(cand)
 
 
-def cost_weight(qp: HedgeQP, mu_cost: float | None) -> float:
-    """Weight of the cost terms in ψ: 1 when priced into the objective, the budget's multiplier
-    in the budget form, 0 without costs."""
-    if qp.cost is None:
-        return 0.0
-    if qp.cost.in_objective:
-        return 1.0
-    return max(float(mu_cost or 0.0), 0.0) if qp.cost.budget is not None else 0.0
-
-
-def _psi_min_costs(qp, slope, absw, z, lo, hi, cw) -> np.ndarray:
-    """min over whole ``v`` in the box of ``slope (v − z) + absw |v| + cw cost(v)`` per line."""
-    out = np.full(qp.n, -np.inf)
-    for j in range(qp.n):
-        if not (np.isfinite(lo[j]) and np.isfinite(hi[j])):
-            continue
-        v = np.arange(lo[j], hi[j] + 1.0)
-        vals = slope[j] * (v - z[j]) + absw[j] * np.abs(v)
-        if cw > 0:
-            vals = vals + cw * qp.cost.table(j, lo[j], hi[j])
-        out[j] = float(vals.min())
-    return out
-
-
 def lagrangian_terms(qp: HedgeQP, z: np.ndarray, lam: np.ndarray | None, mu: float | None,
                      lo: np.ndarray, hi: np.ndarray, mu_cost: float | None = None):
     """``(K, slope, absw, psimin)`` of the Lagrangian bound for box ``[lo, hi]`` (original order).
@@ -142,7 +119,7 @@ def lagrangian_terms(qp: HedgeQP, z: np.ndarray, lam: np.ndarray | None, mu: flo
         cw = cost_weight(qp, mu_cost)
         if not qp.cost.in_objective and qp.cost.budget is not None:
             K0 -= cw * float(qp.cost.budget)
-        psimin = _psi_min_costs(qp, slope, absw, z, lo, hi, cw)
+        psimin = psi_min_costs(qp, slope, absw, z, lo, hi, cw)
         return K0 + float(psimin.sum()), slope, absw, psimin
     psimin = _psi_min(slope, absw, z, lo, hi)
     return K0 + float(psimin.sum()), slope, absw, psimin
@@ -224,20 +201,11 @@ def search_order(A: np.ndarray, lo: np.ndarray, hi: np.ndarray, radius2: float) 
     return out
 
 
-def _cost_limit(qp: HedgeQP, f_inc: float) -> float | None:
-    """Most one line's cost can be at a point that beats ``f_inc`` or meets the cost budget."""
-    if qp.cost is None:
-        return None
-    if qp.cost.in_objective:
-        return f_inc - float(getattr(qp, "offset", 0.0))  # the variance part is ≥ offset
-    return qp.cost.budget
-
-
 def prepare_root(qp: HedgeQP, z: np.ndarray, lam, mu, lo: np.ndarray, hi: np.ndarray,
                  f_inc: float, mu_cost: float | None = None) -> RootData | None:
     """Bound, tightened finite boxes, order and factor; ``None`` if a box stays unlimited."""
     lo0, hi0 = lo, hi
-    climit = _cost_limit(qp, f_inc)
+    climit = cost_limit(qp, f_inc)
     K, slope, absw, psimin = lagrangian_terms(qp, z, lam, mu, lo, hi, mu_cost)
     if np.isfinite(K) and np.isfinite(f_inc):
         lo, hi = finite_box(qp, lo, hi, z, f_inc - K, climit)

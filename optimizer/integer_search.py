@@ -47,7 +47,7 @@ import time
 
 import numpy as np
 
-from .integer_cost_levels import cost_levels
+from .integer_cost_levels import allowed_min, cost_levels, next_left, next_right
 from .integer_levels import level_diagonals
 from .integer_native import native_search, run_native
 from .qp import HedgeQP
@@ -202,59 +202,14 @@ def _search_python(qp: HedgeQP, prep: dict, best_f: float, best_x, deadline: flo
         """Cost table of level i at value v (the box's own values only)."""
         return ctab[coff[i] + v - lo[i]]
 
-    def allowed(i, v):
-        m = mt[i]
-        return m <= 1 or v == c0[i] or abs(v - c0[i]) >= m
-
     def step_left(i, v):
-        """The next value below v that a minimum trade size allows."""
-        w = v - 1
-        m = mt[i]
-        if m > 1:
-            c = c0[i]
-            if c < w < c + m:
-                w = c
-            elif c - m < w < c:
-                w = c - m
-        return w
+        return next_left(mt[i], c0[i], v)
 
     def step_right(i, v):
-        w = v + 1
-        m = mt[i]
-        if m > 1:
-            c = c0[i]
-            if c - m < w < c:
-                w = c
-            elif c < w < c + m:
-                w = c + m
-        return w
+        return next_right(mt[i], c0[i], v)
 
     def descend(i, s, L, U, fn):
-        """Minimiser over the allowed whole values of [L, U] of a convex fn, from near s."""
-        if not allowed(i, s):
-            a, b = step_left(i, s), step_right(i, s)
-            cands = [v for v in (a, b) if L <= v <= U]
-            if not cands:
-                return None, inf
-            s = min(cands, key=fn)
-        ps = fn(s)
-        while True:
-            v = step_left(i, s)
-            if v < L:
-                break
-            pv = fn(v)
-            if pv >= ps:
-                break
-            s, ps = v, pv
-        while True:
-            v = step_right(i, s)
-            if v > U:
-                break
-            pv = fn(v)
-            if pv >= ps:
-                break
-            s, ps = v, pv
-        return s, ps
+        return allowed_min(mt[i], c0[i], s, L, U, fn)
 
     def below(k, c):
         """Separable bound Σ_l D_k,l (c_l − round c_l)² on the free levels 0 … k−1."""
