@@ -1,9 +1,10 @@
 """Columns of the trade list that the execution desk needs beyond the trade itself.
 
-Per line: exchange symbol and exchange (free text from the book), last trading day (from the
-book's ``last_trade``), estimated cost of the trade split into fixed, spread and impact (book
-currency, ≥ 0) and the days it needs at the participation cap. On every row: the as-of date,
-SHA-256 of the book file and of the price data, and the tool version.
+Per line: exchange symbol and exchange (free text from the book), the contract held now and its
+last trading day (rolled books, from the expiries file; ``last_trade`` in the book wins), the
+estimated cost of the trade split into fixed, spread and impact (book currency, ≥ 0) and the
+days it needs at the participation cap. On every row: the as-of date, SHA-256 of the book file
+and of the price data, and the tool version.
 """
 
 from __future__ import annotations
@@ -31,7 +32,7 @@ def add_desk_columns(report, frame: pd.DataFrame) -> pd.DataFrame:
         contracts = int(frame.loc[frame["instrument"] == inst, "contracts"].iloc[0])
         extra.append({
             "symbol": m.get("symbol"), "exchange": m.get("exchange"),
-            "last_trade": m.get("last_trade"),
+            "contract": m.get("contract"), "last_trade": m.get("last_trade"),
             f"cost_fixed_{cur}": round(ln.get("fixed", 0.0), 2),
             f"cost_spread_{cur}": round(ln.get("spread", 0.0), 2),
             f"cost_impact_{cur}": round(ln.get("impact", 0.0), 2),
@@ -39,8 +40,8 @@ def add_desk_columns(report, frame: pd.DataFrame) -> pd.DataFrame:
             "days_at_cap": None if cap is None or not math.isfinite(cap)
             else math.ceil(contracts / cap),
         })
-    cols = ["symbol", "exchange", "last_trade", f"cost_fixed_{cur}", f"cost_spread_{cur}",
-            f"cost_impact_{cur}", f"cost_total_{cur}", "days_at_cap"]
+    cols = ["symbol", "exchange", "contract", "last_trade", f"cost_fixed_{cur}",
+            f"cost_spread_{cur}", f"cost_impact_{cur}", f"cost_total_{cur}", "days_at_cap"]
     out = pd.concat([frame.reset_index(drop=True), pd.DataFrame(extra, columns=cols)], axis=1)
     prov = report.provenance or {}
     for key in ("as_of", "book_sha256", "prices_sha256", "tool_version"):

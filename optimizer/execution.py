@@ -15,11 +15,19 @@ from .solve import HedgeSolution
 __all__ = ["execution_fields"]
 
 
-def _desk(book) -> dict:
+def _desk(book, last_price_date=None) -> dict:
+    """Per line: symbol and exchange from the book; last trading day from the book's
+    ``last_trade``, else from the expiries file of a rolled book (the contract held now)."""
+    from data_adapters.held_contracts import held_contracts
+
+    held = held_contracts(book, last_price_date)
     lines = {}
     for ins in book.instruments:
-        lines[ins.id] = {"symbol": ins.symbol, "exchange": ins.exchange,
-                         "last_trade": None if ins.last_trade is None else str(ins.last_trade)}
+        contract, last = held.get(ins.series, (None, None))
+        if ins.last_trade is not None:
+            last = str(ins.last_trade)
+        lines[ins.id] = {"symbol": ins.symbol, "exchange": ins.exchange, "last_trade": last,
+                         "contract": contract}
     return {"lines": lines}
 
 
@@ -27,7 +35,8 @@ def execution_fields(rep: HedgeReport, model: HedgeModel, sol: HedgeSolution, *,
                      frontier: bool = False, time_limit: float = 5.0,
                      last_price_date=None) -> HedgeReport:
     """``rep`` with schedule (whole-contract answers), frontier (if asked) and provenance."""
-    upd: dict = {"provenance": provenance(model.book, last_price_date), "desk": _desk(model.book)}
+    upd: dict = {"provenance": provenance(model.book, last_price_date),
+                 "desk": _desk(model.book, last_price_date)}
     if sol.ok and sol.method != "continuous":
         plan = execution_schedule(model, np.asarray(sol.x, float))
         caps = plan["caps"]

@@ -134,3 +134,22 @@ def test_cost_aware_strategy_needs_a_cost_setting(tmp_path):
     book.write_text(book.read_text().split("\n[costs]")[0] + "\n")
     with pytest.raises(InputError, match="costs.price_of_risk"):
         run_backtest(book, step=120, window=300, strategies=["joint-whole-cost"])
+
+
+def test_held_contract_and_its_last_trading_day_follow_the_roll(tmp_path):
+    from data_adapters.book import load_book
+    from data_adapters.held_contracts import held_contracts
+    from data_adapters.prices import load_prices
+    from tests.test_rolls import EXPIRIES, _write_book
+
+    book = load_book(_write_book(tmp_path))
+    panel = load_prices(book)
+    held = held_contracts(book, panel.last_date)
+    lines = (tmp_path / "contracts.csv").read_text().splitlines()
+    for series in ("ulsd_m1", "ulsd_m2"):
+        # the roll engine's own choice: the file line of the last date's price
+        line = lines[int(panel.file_rows[series].iloc[-1]) - 1]
+        contract = line.split(",")[1]
+        assert held[series][0] == contract
+        want = pd.Timestamp(EXPIRIES.set_index("contract").loc[contract, "last_trade"])
+        assert held[series][1] == str(want.date())
