@@ -153,3 +153,14 @@ def test_held_contract_and_its_last_trading_day_follow_the_roll(tmp_path):
         assert held[series][0] == contract
         want = pd.Timestamp(EXPIRIES.set_index("contract").loc[contract, "last_trade"])
         assert held[series][1] == str(want.date())
+
+
+def test_sweep_base_prices_trades_like_solve():
+    from optimizer.scenarios import parse_scenarios
+    from optimizer.sweep import run_sweep
+
+    book = prepare(DEMO / "book.toml").book
+    ss = parse_scenarios({"sweep": {"include_base": True}, "scenario": []}, book)
+    res = run_sweep(DEMO / "book.toml", ss, method="exact")
+    base = next(r for r in res.results if r.name == "base")
+    assert base.hedged_std == pytest.approx(solve_book(DEMO / "book.toml").hedged_std, rel=1e-9)
