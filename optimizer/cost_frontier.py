@@ -1,5 +1,8 @@
 """The risk–cost frontier: hedged std against trading cost over a range of prices of risk.
 
+Prices of risk from P/512 to P (``frontier_points − 2`` steps, geometric) and 4 P, 16 P; budgets
+from B/8 to 8 B.
+
 Each point re-solves the book's whole-contract hedge with another price of risk (or, in the
 budget form, another cost budget) on the same covariance and limits. The ends are "no trade"
 (today's positions, zero cost) and "risk only" (cost ignored). The book's own setting is marked
@@ -50,7 +53,8 @@ def _settings(model: HedgeModel) -> list[tuple[str, float | None, float | None, 
         return [(f"budget {b:,.0f}", None, float(b), bool(abs(f - 1) < 1e-9))
                 for f, b in zip(fr, base * fr, strict=True)]
     base = float(spec.price_of_risk) if mode == "price-of-risk" else 1000.0
-    fr = np.geomspace(1 / 16, 16, k)
+    # most of the risk is cheap to remove: reach far below the chosen price, a little above it
+    fr = np.concatenate([np.geomspace(1 / 512, 1, max(k - 2, 2)), [4.0, 16.0]])
     return [(f"price {p:,.0f}", float(p), None, bool(mode == "price-of-risk" and abs(f - 1) < 1e-9))
             for f, p in zip(fr, base * fr, strict=True)]
 

@@ -96,6 +96,10 @@ def _solve_and_show(book, method, trades, as_json, time_limit, schedule=None,
             out.print(f"trade list written to [bold]{trades}[/]")
         for line in written:
             out.print(line)
+        if report.schedule and report.schedule["needed"] and \
+                _schedule_path(trades, schedule, report) is None:
+            out.print("[dim]a line needs more than one day at its cap: --schedule FILE (or "
+                      "--trades FILE) writes the schedule[/]")
 
 
 @app.command()
