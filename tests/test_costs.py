@@ -227,3 +227,20 @@ def test_bad_cost_keys_give_one_message_naming_the_key(tmp_path, inst, costs, ke
         Book.from_dict(data, tmp_path, "book.toml")
     assert key in str(err.value)
     assert words in str(err.value)
+
+
+def test_exact_with_costs_and_a_margin_budget_equals_brute_force():
+    rng = np.random.default_rng(31)
+    for k in range(12):
+        qp = cost_book(rng, "price" if k % 2 else "budget", 1 + k % 3)
+        m = rng.uniform(0.5, 1.5, qp.n)
+        qp = replace(qp, margin=m, margin_budget=float(m.sum() * 1.5))
+        start = qp.cost.current if qp.is_feasible(qp.cost.current) else None
+        res = solve_exact(qp, start=start)
+        # source: exhaustive enumeration of every integer point, exact by construction
+        best = brute_force_costs(qp)
+        if math.isinf(best):
+            assert res.status == "infeasible"
+            continue
+        assert res.status == "certified"
+        assert res.objective == pytest.approx(best, abs=1e-9)
