@@ -35,14 +35,13 @@ from pathlib import Path
 import numpy as np
 
 ROOT = Path(__file__).resolve().parents[1]
-sys.path.insert(0, str(ROOT))
-sys.path.insert(0, str(ROOT / "benchmarks"))
+sys.path.insert(0, str(ROOT / "benchmarks"))  # curve_books; basiswise is installed
 
 BOOK = ROOT / "scenarios" / "demo" / "book.toml"
 
 
 def backtest_part() -> list[str]:
-    from optimizer.backtest import run_backtest
+    from basiswise.optimizer.backtest.engine import run_backtest
 
     t0 = time.perf_counter()
     res = run_backtest(BOOK, strategies=["single-mv", "joint-whole", "joint-whole-cost"],
@@ -85,8 +84,8 @@ def backtest_part() -> list[str]:
 
 def with_costs(qp, seed: int):
     """The curve book with invented current positions and cost terms (price-of-risk form)."""
-    from optimizer.cost_terms import CostTerms
-    from optimizer.formulation import solve_relaxed
+    from basiswise.optimizer.problem.cost_terms import CostTerms
+    from basiswise.optimizer.problem.formulation import solve_relaxed
 
     rng = np.random.default_rng(seed + 777)
     x_star = solve_relaxed(qp).x
@@ -104,7 +103,7 @@ def with_costs(qp, seed: int):
 def solver_part(seeds: int, time_limit: float) -> list[str]:
     from curve_books import curve_book
 
-    from optimizer.solve import solve_qp
+    from basiswise.optimizer.solvers.dispatch import solve_qp
 
     lines = [f"exact solver on 48-instrument curve books ({seeds} seeds per regime, time limit "
              f"{time_limit:.0f} s)",

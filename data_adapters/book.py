@@ -16,10 +16,10 @@ from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, field_validator
 
-from data_adapters.book_costs import CostSpec, check_costs
-from data_adapters.errors import InputError, from_validation_error
-from data_adapters.toml_file import read_toml
-from data_adapters.units import parse_price_unit, units_in_price_unit
+from basiswise.data_adapters.book_costs import CostSpec, check_costs
+from basiswise.data_adapters.errors import InputError, from_validation_error
+from basiswise.data_adapters.toml_file import read_toml
+from basiswise.data_adapters.units import parse_price_unit, units_in_price_unit
 
 __all__ = [
     "Book",
@@ -137,7 +137,7 @@ class Instrument(_Model):
     margin: float = Field(0.0, ge=0.0)
     cost_per_contract: float = Field(0.0, ge=0.0)
     contract_month: str | None = Field(None, pattern=r"^\d{4}-(0[1-9]|1[0-2])$")
-    # trading-cost model (see optimizer.costs): quoted bid-ask spread in the series' price unit,
+    # trading-cost model (optimizer.problem.costs): quoted bid-ask spread in the series' price unit,
     # or in ticks with the currency value of one tick per contract; square-root impact coefficient
     spread: float | None = Field(None, ge=0.0)
     spread_ticks: float | None = Field(None, ge=0.0)

@@ -12,16 +12,16 @@ from typing import TYPE_CHECKING
 
 from pydantic import BaseModel, ConfigDict, Field
 
-from data_adapters.errors import InputError
+from basiswise.data_adapters.errors import InputError
 
 if TYPE_CHECKING:
-    from data_adapters.book import Book, Instrument
+    from basiswise.data_adapters.book import Book, Instrument
 
 __all__ = ["CostSpec", "check_costs", "has_cost_model"]
 
 
 class CostSpec(BaseModel):
-    """``[costs]``: how trading cost enters the hedge problem (see :mod:`optimizer.costs`).
+    """``[costs]``: how trading cost enters the hedge problem (see :mod:`optimizer.problem.costs`).
 
     ``price_of_risk``: book currency the desk is willing to pay in trading cost to raise the
     variance reduction by one percentage point (of the unhedged variance); the problem then

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from data_adapters.rolls import GENERIC_NAME, _expiry_table, _roll_dates, read_expiries
+from basiswise.data_adapters.rolls import GENERIC_NAME, _expiry_table, _roll_dates, read_expiries
 
 __all__ = ["held_contracts"]
 
