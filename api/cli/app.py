@@ -10,16 +10,30 @@ from importlib import resources
 from pathlib import Path
 
 import typer
-from rich.table import Table
 
-from .common import EXIT_NO_HEDGE, err, fail, guarded, out
+from .common import EXIT_NO_HEDGE, METHODS, BookArg, check_ranges, err, fail, guarded, out
+from .render import text
 
-app = typer.Typer(add_completion=False, no_args_is_help=True,
+app = typer.Typer(add_completion=False, no_args_is_help=True, rich_markup_mode=None,
                   help="Joint minimum-variance cross hedges in whole futures contracts.")
 
-BookArg = typer.Argument(..., help="Book file (TOML).", show_default=False, metavar="BOOK")
 MethodOpt = typer.Option("exact", "--method", "-m",
                          help="exact (whole contracts, proven) | round | continuous")
+JsonOpt = typer.Option(False, "--json", help="Print one JSON object on stdout.")
+EstimatorOpt = typer.Option(None, help="Override [estimation].estimator.")
+WindowOpt = typer.Option(None, help="Override [estimation].window (rows, at least 2).")
+HorizonOpt = typer.Option(None, help="Override [book].horizon_days (at least 1).")
+ChangesOpt = typer.Option(None, help="Override [estimation].changes.")
+SamplingOpt = typer.Option(None, help="Override [estimation].sampling.")
+TimeLimitOpt = typer.Option(30.0, help="Seconds allowed for the whole-contract search (> 0).")
+
+
+def _door(method: str, time_limit: float, window: int | None, horizon: int | None) -> None:
+    """Option values refused before any file is read."""
+    if method not in METHODS:
+        fail(f"unknown method '{method}'; valid: {', '.join(METHODS)}")
+    check_ranges(time_limit=(time_limit, 0, True), window=(window, 2, False),
+                 horizon=(horizon, 1, False))
 
 
 def _write_trades(report, path: Path) -> None:
@@ -45,19 +59,19 @@ def _write_execution(report, trades, schedule, frontier_png, frontier_csv=None) 
     path = _schedule_path(trades, schedule, report)
     if path is not None:
         write_csv_atomic(schedule_frame(report), path)
-        done.append(f"execution schedule written to [bold]{path}[/]")
-    if frontier_csv is not None and report.frontier:
+        done.append(f"execution schedule written to {path}")
+    if frontier_csv is not None and report.cost_frontier:
         import pandas as pd
 
-        write_csv_atomic(pd.DataFrame(report.frontier), frontier_csv)
-        done.append(f"risk–cost frontier written to [bold]{frontier_csv}[/]")
-    if frontier_png is not None and report.frontier:
+        write_csv_atomic(pd.DataFrame(report.cost_frontier), frontier_csv)
+        done.append(f"risk–cost frontier written to {frontier_csv}")
+    if frontier_png is not None and report.cost_frontier:
         from basiswise.optimizer.sweeps.cost_frontier import FrontierPoint, write_cost_frontier_png
 
-        pts = [FrontierPoint(**p) for p in report.frontier]
+        pts = [FrontierPoint(**p) for p in report.cost_frontier]
         write_cost_frontier_png(pts, frontier_png, currency=report.currency,
                                 unhedged_std=report.unhedged_std)
-        done.append(f"risk–cost frontier chart written to [bold]{frontier_png}[/]")
+        done.append(f"risk–cost frontier chart written to {frontier_png}")
     return done
 
 
@@ -68,8 +82,6 @@ def _solve_and_show(book, method, trades, as_json, time_limit, schedule=None,
     from .cost_tables import print_execution
     from .tables import print_report
 
-    if method not in ("exact", "round", "continuous"):
-        fail(f"unknown method '{method}'; valid: exact, round, continuous")
     if trades is not None and method == "continuous":
         fail("--trades needs whole contracts: use --method exact or round")
     busy = (err.status("estimating and solving the hedge…") if err.is_terminal
@@ -93,13 +105,13 @@ def _solve_and_show(book, method, trades, as_json, time_limit, schedule=None,
         print_report(report, out)
         print_execution(report, out)
         if trades is not None:
-            out.print(f"trade list written to [bold]{trades}[/]")
+            out.print(text(f"trade list written to {trades}"))
         for line in written:
-            out.print(line)
+            out.print(text(line))
         if report.schedule and report.schedule["needed"] and \
                 _schedule_path(trades, schedule, report) is None:
-            out.print("[dim]a line needs more than one day at its cap: --schedule FILE (or "
-                      "--trades FILE) writes the schedule[/]")
+            out.print(text("a line needs more than one day at its cap: --schedule FILE (or "
+                           "--trades FILE) writes the schedule", "dim"))
 
 
 @app.command()
@@ -107,14 +119,14 @@ def _solve_and_show(book, method, trades, as_json, time_limit, schedule=None,
 def solve(
     book: Path = BookArg,
     method: str = MethodOpt,
-    as_json: bool = typer.Option(False, "--json", help="Print one JSON object on stdout."),
+    as_json: bool = JsonOpt,
     trades: Path | None = typer.Option(None, "--trades", help="Write the trade list (CSV)."),
-    estimator: str | None = typer.Option(None, help="Override [estimation].estimator."),
-    window: int | None = typer.Option(None, help="Override [estimation].window (rows)."),
-    horizon: int | None = typer.Option(None, help="Override [book].horizon_days."),
-    changes: str | None = typer.Option(None, help="Override [estimation].changes."),
-    sampling: str | None = typer.Option(None, help="Override [estimation].sampling."),
-    time_limit: float = typer.Option(30.0, help="Seconds allowed for the whole-contract search."),
+    estimator: str | None = EstimatorOpt,
+    window: int | None = WindowOpt,
+    horizon: int | None = HorizonOpt,
+    changes: str | None = ChangesOpt,
+    sampling: str | None = SamplingOpt,
+    time_limit: float = TimeLimitOpt,
     price_of_risk: float | None = typer.Option(
         None, "--price-of-risk",
         help="Override [costs].price_of_risk: currency paid per point of variance reduction."),
@@ -130,34 +142,23 @@ def solve(
         None, "--frontier-csv", help="Write the risk–cost frontier points (CSV)."),
 ) -> None:
     """Solve the book's hedge and show it; optionally write the trade list and schedule."""
+    _door(method, time_limit, window, horizon)
     if price_of_risk is not None and cost_budget is not None:
         fail("give --price-of-risk or --cost-budget, not both")
     _solve_and_show(book, method, trades, as_json, time_limit, schedule=schedule,
                     frontier_png=frontier_png, frontier=frontier, frontier_csv=frontier_csv,
-                    estimator=estimator,
-                    window=window, horizon_days=horizon, changes=changes, sampling=sampling,
-                    price_of_risk=price_of_risk, budget=cost_budget)
+                    estimator=estimator, window=window, horizon_days=horizon, changes=changes,
+                    sampling=sampling, price_of_risk=price_of_risk, budget=cost_budget)
 
 
 @app.command()
 @guarded
 def check(book: Path = BookArg) -> None:
-    """Validate a book and its prices without solving."""
-    from basiswise.optimizer.pipeline import prepare
+    """Validate a book and its prices without solving; warn about short history and limits
+    that cannot hold together."""
+    from .check_cmd import run_check
 
-    prep = prepare(book)
-    b, p = prep.book, prep.panel
-    t = Table(title=f"Book '{b.book.name}' is valid", title_justify="left")
-    for c in ["series", "unit", "rows", "first date", "last date", "last price"]:
-        t.add_column(c, justify="right" if c in ("rows", "last price") else "left")
-    for s in p.prices.columns:
-        t.add_row(s, b.series[s].unit, str(len(p.prices)), str(p.first_date.date()),
-                  str(p.last_date.date()), f"{p.prices[s].iloc[-1]:,.4f}")
-    out.print(t)
-    out.print(f"{len(b.exposures)} exposures, {len(b.instruments)} instruments, "
-              f"{len(b.group_limits)} group limits; {p.dropped_rows} rows dropped by alignment; "
-              f"estimator {b.estimation.estimator}, window {b.estimation.window} rows, horizon "
-              f"{b.book.horizon_days} days")
+    run_check(book, out)
 
 
 @app.command()
@@ -166,21 +167,30 @@ def report(
     book: Path = BookArg,
     output: Path = typer.Option(..., "--out", "-o", help="Markdown file to write."),
     method: str = MethodOpt,
-    time_limit: float = typer.Option(30.0, help="Seconds allowed for the whole-contract search."),
+    estimator: str | None = EstimatorOpt,
+    window: int | None = WindowOpt,
+    horizon: int | None = HorizonOpt,
+    changes: str | None = ChangesOpt,
+    sampling: str | None = SamplingOpt,
+    time_limit: float = TimeLimitOpt,
 ) -> None:
-    """Solve the book and write the hedge report (Markdown) for the hedge file."""
+    """Solve the book and write the hedge report (Markdown) for the hedge file; takes the same
+    overrides as solve."""
     from basiswise.data_adapters.output import write_text_atomic
     from basiswise.optimizer.pipeline import solve_book
     from basiswise.optimizer.results.markdown import to_markdown
 
-    if method not in ("exact", "round", "continuous"):
-        fail(f"unknown method '{method}'; valid: exact, round, continuous")
-    rep = solve_book(book, method, time_limit=time_limit, frontier=True)
+    _door(method, time_limit, window, horizon)
+    rep = solve_book(book, method, time_limit=time_limit, frontier=True, estimator=estimator,
+                     window=window, horizon_days=horizon, changes=changes, sampling=sampling)
     if not rep.ok:
         fail(f"{book}: no feasible hedge ({rep.status}); no report written", EXIT_NO_HEDGE)
     write_text_atomic(to_markdown(rep, source=str(book)), output)
-    out.print(f"hedge report written to [bold]{output}[/] (hedged std "
-              f"{rep.hedged_std:,.0f} {rep.currency} over {rep.horizon_days} days)")
+    out.print(text(f"hedge report written to {output} (hedged std {rep.hedged_std:,.0f} "
+                   f"{rep.currency} over {rep.horizon_days} days)"))
+
+
+DEMO_FILES = ("book.toml", "prices.csv", "limit_cuts.toml")
 
 
 @app.command()
@@ -189,16 +199,23 @@ def demo(
     folder: Path = typer.Option(Path("basiswise-demo"), "--out",
                                 help="Folder for the demo book, prices and trade list."),
     method: str = MethodOpt,
+    force: bool = typer.Option(False, "--force",
+                               help="Overwrite files in the folder that differ from the demo."),
 ) -> None:
     """Write the invented demo book into a folder, solve it and write its trade list."""
-    folder.mkdir(parents=True, exist_ok=True)
+    _door(method, 30.0, None, None)
     src = resources.files("basiswise.scenarios") / "demo"
-    for name in ("book.toml", "prices.csv", "limit_cuts.toml"):
-        item = src / name
-        if item.is_file():
-            with resources.as_file(item) as f:
-                shutil.copyfile(f, folder / name)
-    out.print(f"demo book and invented prices written to [bold]{folder}[/]")
+    items = [(name, src / name) for name in DEMO_FILES if (src / name).is_file()]
+    clash = [name for name, item in items
+             if (folder / name).exists() and (folder / name).read_bytes() != item.read_bytes()]
+    if clash and not force:
+        fail(f"{folder}: {', '.join(clash)} already there and different from the demo; "
+             "nothing written (use --force to overwrite, or another --out folder)")
+    folder.mkdir(parents=True, exist_ok=True)
+    for name, item in items:
+        with resources.as_file(item) as f:
+            shutil.copyfile(f, folder / name)
+    out.print(text(f"demo book and invented prices written to {folder}"))
     _solve_and_show(folder / "book.toml", method, folder / "trades.csv", False, 30.0,
                     schedule=folder / "schedule.csv", frontier_png=folder / "frontier.png")
 

@@ -30,11 +30,11 @@ def execution_sections(r) -> list[str]:
                 f"the horizon P&L std from {_m(tc['std_before_trades'], cur)} to "
                 f"{_m(tc['std_after_trades'], cur)}.", "",
                 _table(["instrument", "trade", "fixed", "spread", "impact", "total"], rows), ""]
-    if r.frontier:
+    if r.cost_frontier:
         out += ["## Risk–cost frontier", "", "Chosen setting marked ▶.", "",
                 _table(["setting", f"cost {cur}", f"hedged std {cur}", "contracts"],
                        [[("▶ " if p["chosen"] else "") + p["label"], _m(p["cost"]),
-                         _m(p["hedged_std"]), str(p["contracts"])] for p in r.frontier]), ""]
+                         _m(p["hedged_std"]), str(p["contracts"])] for p in r.cost_frontier]), ""]
     s = r.schedule
     if s is not None and s["needed"]:
         rows = [[str(x["day"]), x["instrument"], x["side"], str(x["contracts"]),

@@ -39,7 +39,9 @@ def trading_cost_summary(model: HedgeModel, x: np.ndarray) -> dict | None:
     lines = []
     for j, ins in enumerate(model.book.instruments):
         f, s, i = (float(parts[k][j]) for k in ("fixed", "spread", "impact"))
-        lines.append({"id": ins.id, "trade": float(trade[j]), "fixed": f, "spread": s,
+        t = float(trade[j])
+        lines.append({"id": ins.id, "trade": int(t) if t.is_integer() else t, "fixed": f,
+                      "spread": s,
                       "impact": i, "total": f + s + i})
     total = {k: float(parts[k].sum()) for k in ("fixed", "spread", "impact")}
     cost_total = sum(total.values())

@@ -27,7 +27,7 @@ def add_desk_columns(report, frame: pd.DataFrame) -> pd.DataFrame:
     extra = []
     for inst in frame["instrument"] if len(frame) else []:
         ln = costs.get(inst, {})
-        m = meta.get("lines", {}).get(inst, {})
+        m = next((x for x in meta.get("lines", []) if x["id"] == inst), {})
         cap = caps.get(inst)
         contracts = int(frame.loc[frame["instrument"] == inst, "contracts"].iloc[0])
         extra.append({

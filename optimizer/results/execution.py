@@ -21,13 +21,13 @@ def _desk(book, last_price_date=None) -> dict:
     from basiswise.data_adapters.held_contracts import held_contracts
 
     held = held_contracts(book, last_price_date)
-    lines = {}
+    lines = []
     for ins in book.instruments:
         contract, last = held.get(ins.series, (None, None))
         if ins.last_trade is not None:
             last = str(ins.last_trade)
-        lines[ins.id] = {"symbol": ins.symbol, "exchange": ins.exchange, "last_trade": last,
-                         "contract": contract}
+        lines.append({"id": ins.id, "symbol": ins.symbol, "exchange": ins.exchange,
+                      "contract": contract, "last_trade": last})
     return {"lines": lines}
 
 
@@ -49,5 +49,5 @@ def execution_fields(rep: HedgeReport, model: HedgeModel, sol: HedgeSolution, *,
     if frontier and sol.ok:
         from ..sweeps.cost_frontier import cost_frontier
 
-        upd["frontier"] = [p.to_dict() for p in cost_frontier(model, time_limit=time_limit)]
+        upd["cost_frontier"] = [p.to_dict() for p in cost_frontier(model, time_limit=time_limit)]
     return replace(rep, **upd)
