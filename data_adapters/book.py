@@ -16,6 +16,7 @@ from typing import Any
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, field_validator
 
+from basiswise.data_adapters.book_costs import CostSpec, check_costs
 from basiswise.data_adapters.choices import (
     PRICE_FORMATS,
     ChangeKind,
@@ -31,6 +32,7 @@ __all__ = [
     "Book",
     "BookMeta",
     "Constraints",
+    "CostSpec",
     "DataSpec",
     "EstimationSpec",
     "Exposure",
@@ -140,6 +142,17 @@ class Instrument(_Model):
     margin: float = Field(0.0, ge=0.0)
     cost_per_contract: float = Field(0.0, ge=0.0)
     contract_month: str | None = Field(None, pattern=r"^\d{4}-(0[1-9]|1[0-2])$")
+    # trading-cost model (optimizer.problem.costs): quoted bid-ask spread in the series' price unit,
+    # or in ticks with the currency value of one tick per contract; square-root impact coefficient
+    spread: float | None = Field(None, ge=0.0)
+    spread_ticks: float | None = Field(None, ge=0.0)
+    tick_value: float | None = Field(None, ge=0.0)
+    impact_coefficient: float | None = Field(None, ge=0.0)
+    min_trade: int | None = Field(None, ge=1)
+    # passed through to the trade list for the execution desk (free text / a date)
+    symbol: str | None = None
+    exchange: str | None = None
+    last_trade: date | None = None
 
     def bounds(self) -> tuple[float, float]:
         """Position bounds in contracts, ``(-inf, inf)`` when unlimited."""
@@ -177,6 +190,7 @@ _PATTERN_WORDS = {
 }
 _ID_TABLES = ("exposure", "instrument", "group_limit")
 
+_EXCLUSIVE = {"price_of_risk": "budget", "budget": "price_of_risk"}
 _OVERRIDES = {
     "estimator": "estimation",
     "window": "estimation",
@@ -184,6 +198,8 @@ _OVERRIDES = {
     "sampling": "estimation",
     "ewma_lambda": "estimation",
     "horizon_days": "book",
+    "price_of_risk": "costs",
+    "budget": "costs",
 }
 
 
@@ -198,6 +214,7 @@ class Book(_Model):
     instruments: list[Instrument] = Field(default_factory=list, alias="instrument")
     group_limits: list[GroupLimit] = Field(default_factory=list, alias="group_limit")
     constraints: Constraints = Constraints()
+    costs: CostSpec = CostSpec()
 
     _path: Path = PrivateAttr(default=Path("book.toml"))
     _source: str = PrivateAttr(default="book.toml")
@@ -281,7 +298,10 @@ class Book(_Model):
                     f"unknown override; allowed: {', '.join(_OVERRIDES)}", key=name
                 )
             if value is not None:
-                data[_OVERRIDES[name]][name] = value
+                section = data.setdefault(_OVERRIDES[name], {})
+                section[name] = value
+                if name in _EXCLUSIVE:  # a cost budget replaces a price of risk and back
+                    section.pop(_EXCLUSIVE[name], None)
         return Book.from_dict(data, self.folder, f"{self._source} (with overrides)")
 
 
@@ -390,6 +410,8 @@ def _check(book: Book, source: str) -> None:
                 file=source,
                 key=f"{where}.min_position",
             )
+
+    check_costs(book, source)
 
     for group in book.group_limits:
         where = f"group_limit {group.id!r}"

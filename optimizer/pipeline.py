@@ -120,25 +120,46 @@ def model_of(prep: Prepared, *, fractional: bool = False, prices=None, as_of=Non
                              f"{prep.panel.first_date.date()}", key="as_of")
         frame = prep.panel.as_of(end)
     changes, covariance = estimate(frame, book)
-    return build_hedge_model(book, changes, covariance, fractional=fractional)
+    from .problem.costs import daily_volatility
+
+    vol = daily_volatility(frame, book.estimation.window) if _has_impact(book) else None
+    return build_hedge_model(book, changes, covariance, fractional=fractional, daily_vol=vol)
+
+
+def _has_impact(book: Book) -> bool:
+    return any((i.impact_coefficient or 0) > 0 for i in book.instruments)
 
 
 def solve_model(model: HedgeModel, method: str = "exact", *, time_limit: float = 30.0,
-                notes: list[str] | None = None) -> HedgeReport:
-    """Solve a built model and report."""
+                notes: list[str] | None = None, frontier: bool = False,
+                last_price_date=None) -> HedgeReport:
+    """Solve a built model and report.
+
+    The report carries the trades' cost, the execution schedule (whole contracts) and the
+    provenance of the inputs; ``frontier=True`` adds the risk–cost frontier (several solves).
+    """
     sol = solve_qp(model.qp, method, time_limit=time_limit, start=model.current)
     notes = list(notes or [])
     if not sol.ok:
         notes += [f"conflict: {c}" for c in limit_conflicts(model)]
-    return replace(build_report(model, sol, notes), warnings=history_warnings(model))
+    from .results.execution import execution_fields
+
+    rep = replace(build_report(model, sol, notes), warnings=history_warnings(model))
+    return execution_fields(rep, model, sol, frontier=frontier and method != "continuous",
+                            time_limit=min(time_limit, 5.0), last_price_date=last_price_date)
 
 
 def solve_book(book: Book | str | Path, method: str = "exact", *, time_limit: float = 30.0,
-               **overrides) -> HedgeReport:
-    """Hedge a book end to end: load, estimate, solve in whole contracts (by default), report."""
+               frontier: bool = False, **overrides) -> HedgeReport:
+    """Hedge a book end to end: load, estimate, solve in whole contracts (by default), report.
+
+    ``overrides`` replace estimation settings and the cost setting (``price_of_risk`` or
+    ``budget`` of ``[costs]``); ``frontier=True`` adds the risk–cost frontier to the report.
+    """
     prep = prepare(book, **overrides)
     model = model_of(prep, fractional=(method == "continuous"))
-    rep = solve_model(model, method, time_limit=time_limit, notes=prep.notes)
+    rep = solve_model(model, method, time_limit=time_limit, notes=prep.notes,
+                      frontier=frontier, last_price_date=prep.panel.last_date)
     as_of = prep.book.book.as_of
     return replace(rep, as_of=None if as_of is None else as_of.isoformat(),
                    price_date=prep.panel.last_date.date().isoformat(),

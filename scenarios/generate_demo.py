@@ -247,6 +247,27 @@ INSTRUMENTS: tuple[tuple, ...] = (
 MAX_PARTICIPATION = 0.1
 EXECUTION_DAYS = 3
 
+#: trading-cost keys per instrument: quoted bid-ask spread in ticks, USD per tick per contract,
+#: exchange symbol and venue (invented), last trading day; and a thin line (ADV override) whose
+#: trade needs more than one day at the participation cap
+COST_KEYS: dict[str, tuple[float, float, str, str, str]] = {
+    "CRUDE-F1": (1.0, 10.0, "XC G26", "Demo Energy Exchange", "2026-01-20"),
+    "CRUDE-F2": (1.0, 10.0, "XC H26", "Demo Energy Exchange", "2026-02-19"),
+    "CRUDE-F3": (2.0, 10.0, "XC J26", "Demo Energy Exchange", "2026-03-20"),
+    "ULSD-F1": (2.0, 4.2, "XD G26", "Demo Energy Exchange", "2026-01-30"),
+    "ULSD-F2": (2.0, 4.2, "XD H26", "Demo Energy Exchange", "2026-02-27"),
+    "ULSD-F3": (3.0, 4.2, "XD J26", "Demo Energy Exchange", "2026-03-31"),
+    "GASOLINE-F1": (2.0, 4.2, "XG G26", "Demo Energy Exchange", "2026-01-30"),
+    "GASOLINE-F2": (3.0, 4.2, "XG H26", "Demo Energy Exchange", "2026-02-27"),
+    "NATGAS-F1": (1.0, 10.0, "XN G26", "Demo Gas Exchange", "2026-01-28"),
+    "NATGAS-F2": (1.0, 10.0, "XN H26", "Demo Gas Exchange", "2026-02-25"),
+    "NATGAS-F3": (2.0, 10.0, "XN J26", "Demo Gas Exchange", "2026-03-27"),
+}
+IMPACT_COEFFICIENT = 0.1
+THIN_LINE = ("NATGAS-F3", 60)  # thin line: needs more than a day at 10 % participation
+#: USD of trading cost the desk pays per percentage point of variance reduction
+PRICE_OF_RISK = 2_000.0
+
 #: (id, instruments, limit in contracts): one per product family, all months combined
 GROUP_LIMITS: tuple[tuple[str, tuple[str, ...], int], ...] = (
     ("crude-all-months", ("CRUDE-F1", "CRUDE-F2", "CRUDE-F3"), 30),
@@ -344,6 +365,9 @@ def render_book(as_of: str, seed: int = DEFAULT_SEED) -> str:
         "# current = contracts held now. Liquidity: |target - current| may not exceed",
         "# max_participation x adv (contracts/day) x execution_days.",
         "# margin = initial margin in USD per contract; cost_per_contract in USD per contract.",
+        "# Trading cost per contract: cost_per_contract (fees) + spread_ticks / 2 x tick_value",
+        "# (USD per tick) + impact: impact_coefficient x daily volatility x notional x",
+        "# sqrt(contracts / adv). symbol / exchange / last_trade are passed to the trade list.",
     ]
     for ident, series, size, unit, limit, current, adv, margin, cost, month in INSTRUMENTS:
         lines += _table("[[instrument]]", id=ident, series=series, contract_size=size, unit=unit)
@@ -351,9 +375,15 @@ def render_book(as_of: str, seed: int = DEFAULT_SEED) -> str:
             lines += [f"min_position = {limit[0]}", f"max_position = {limit[1]}"]
         else:
             lines.append(f"position_limit = {limit}")
+        if ident == THIN_LINE[0]:
+            adv = THIN_LINE[1]
         lines += _pairs(current=current, adv=adv, max_participation=MAX_PARTICIPATION)
         lines += _pairs(execution_days=EXECUTION_DAYS, margin=margin, cost_per_contract=cost)
         lines += _pairs(contract_month=month)
+        ticks, tick_value, symbol, venue, last = COST_KEYS[ident]
+        lines += _pairs(spread_ticks=ticks, tick_value=tick_value,
+                        impact_coefficient=IMPACT_COEFFICIENT, symbol=symbol, exchange=venue)
+        lines.append(f"last_trade = {last}")
     lines += [
         "",
         "# Group limits: all months of one product combined:",
@@ -366,6 +396,11 @@ def render_book(as_of: str, seed: int = DEFAULT_SEED) -> str:
         "[constraints]",
         f"margin_budget = {_toml_value(MARGIN_BUDGET)}   # USD: sum of margin x |position|",
         "hedge_only = false",
+        "",
+        "# Trading cost in the hedge: price_of_risk = USD of trading cost the desk pays to raise",
+        "# the variance reduction by one percentage point (of the unhedged variance).",
+        "[costs]",
+        f"price_of_risk = {PRICE_OF_RISK:.1f}",
         "",
     ]
     return "\n".join(lines)

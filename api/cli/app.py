@@ -46,9 +46,44 @@ def _write_trades(report, path: Path) -> None:
     write_csv_atomic(report.trade_list(), path)
 
 
-def _solve_and_show(book, method, trades, as_json, time_limit, **overrides) -> None:
+def _schedule_path(trades: Path | None, schedule: Path | None, report) -> Path | None:
+    """Where the schedule goes: ``--schedule``, else beside the trade list when it is needed."""
+    if schedule is not None:
+        return schedule
+    if trades is not None and report.schedule is not None and report.schedule["needed"]:
+        return trades.with_name(f"{trades.stem}_schedule.csv")
+    return None
+
+
+def _write_execution(report, trades, schedule, frontier_png, frontier_csv=None) -> list[str]:
+    from basiswise.data_adapters.output import write_csv_atomic
+    from basiswise.optimizer.results.desk_fields import schedule_frame
+
+    done = []
+    path = _schedule_path(trades, schedule, report)
+    if path is not None:
+        write_csv_atomic(schedule_frame(report), path)
+        done.append(f"execution schedule written to {path}")
+    if frontier_csv is not None and report.cost_frontier:
+        import pandas as pd
+
+        write_csv_atomic(pd.DataFrame(report.cost_frontier), frontier_csv)
+        done.append(f"risk–cost frontier written to {frontier_csv}")
+    if frontier_png is not None and report.cost_frontier:
+        from basiswise.optimizer.sweeps.cost_frontier import FrontierPoint, write_cost_frontier_png
+
+        pts = [FrontierPoint(**p) for p in report.cost_frontier]
+        write_cost_frontier_png(pts, frontier_png, currency=report.currency,
+                                unhedged_std=report.unhedged_std)
+        done.append(f"risk–cost frontier chart written to {frontier_png}")
+    return done
+
+
+def _solve_and_show(book, method, trades, as_json, time_limit, schedule=None,
+                    frontier_png=None, frontier=True, frontier_csv=None, **overrides) -> None:
     from basiswise.optimizer.pipeline import solve_book
 
+    from .cost_tables import print_execution
     from .tables import print_report
 
     if trades is not None and method == "continuous":
@@ -56,7 +91,8 @@ def _solve_and_show(book, method, trades, as_json, time_limit, **overrides) -> N
     busy = (err.status("estimating and solving the hedge…") if err.is_terminal
             else contextlib.nullcontext())
     with busy:
-        report = solve_book(book, method, time_limit=time_limit, **overrides)
+        report = solve_book(book, method, time_limit=time_limit, frontier=frontier,
+                            **overrides)
     if not report.ok:
         if as_json:
             print(json.dumps(report.to_dict(), indent=2))
@@ -66,12 +102,20 @@ def _solve_and_show(book, method, trades, as_json, time_limit, **overrides) -> N
              EXIT_NO_HEDGE)
     if trades is not None:
         _write_trades(report, trades)
+    written = _write_execution(report, trades, schedule, frontier_png, frontier_csv)
     if as_json:
         print(json.dumps(report.to_dict(), indent=2))
     else:
         print_report(report, out)
+        print_execution(report, out)
         if trades is not None:
             out.print(text(f"trade list written to {trades}"))
+        for line in written:
+            out.print(text(line))
+        if report.schedule and report.schedule["needed"] and \
+                _schedule_path(trades, schedule, report) is None:
+            out.print(text("a line needs more than one day at its cap: --schedule FILE (or "
+                           "--trades FILE) writes the schedule", "dim"))
 
 
 @app.command()
@@ -87,11 +131,28 @@ def solve(
     changes: ChangeKind | None = ChangesOpt,
     sampling: Sampling | None = SamplingOpt,
     time_limit: float = TimeLimitOpt,
+    price_of_risk: float | None = typer.Option(
+        None, "--price-of-risk",
+        help="Override [costs].price_of_risk: currency paid per point of variance reduction."),
+    cost_budget: float | None = typer.Option(
+        None, "--cost-budget", help="Override [costs].budget: most the trades may cost."),
+    schedule: Path | None = typer.Option(
+        None, "--schedule", help="Write the per-day execution schedule (CSV)."),
+    frontier_png: Path | None = typer.Option(
+        None, "--frontier-png", help="Write the risk–cost frontier chart (PNG)."),
+    frontier: bool = typer.Option(True, "--frontier/--no-frontier",
+                                  help="Compute the risk–cost frontier (several solves)."),
+    frontier_csv: Path | None = typer.Option(
+        None, "--frontier-csv", help="Write the risk–cost frontier points (CSV)."),
 ) -> None:
-    """Solve the book's hedge and show it; optionally write the trade list."""
+    """Solve the book's hedge and show it; optionally write the trade list and schedule."""
     _door(method, time_limit, window, horizon)
-    _solve_and_show(book, method, trades, as_json, time_limit, estimator=estimator,
-                    window=window, horizon_days=horizon, changes=changes, sampling=sampling)
+    if price_of_risk is not None and cost_budget is not None:
+        fail("give --price-of-risk or --cost-budget, not both")
+    _solve_and_show(book, method, trades, as_json, time_limit, schedule=schedule,
+                    frontier_png=frontier_png, frontier=frontier, frontier_csv=frontier_csv,
+                    estimator=estimator, window=window, horizon_days=horizon, changes=changes,
+                    sampling=sampling, price_of_risk=price_of_risk, budget=cost_budget)
 
 
 @app.command()
@@ -124,8 +185,8 @@ def report(
     from basiswise.optimizer.results.markdown import to_markdown
 
     _door(method, time_limit, window, horizon)
-    rep = solve_book(book, method, time_limit=time_limit, estimator=estimator, window=window,
-                     horizon_days=horizon, changes=changes, sampling=sampling)
+    rep = solve_book(book, method, time_limit=time_limit, frontier=True, estimator=estimator,
+                     window=window, horizon_days=horizon, changes=changes, sampling=sampling)
     if not rep.ok:
         fail(f"{book}: no feasible hedge ({rep.status}); no report written", EXIT_NO_HEDGE)
     write_text_atomic(to_markdown(rep, source=str(book)), output)
@@ -159,7 +220,8 @@ def demo(
         with resources.as_file(item) as f:
             shutil.copyfile(f, folder / name)
     out.print(text(f"demo book and invented prices written to {folder}"))
-    _solve_and_show(folder / "book.toml", method, folder / "trades.csv", False, 30.0)
+    _solve_and_show(folder / "book.toml", method, folder / "trades.csv", False, 30.0,
+                    schedule=folder / "schedule.csv", frontier_png=folder / "frontier.png")
 
 
 from . import backtest_cmd, sweep_cmd  # noqa: E402  (commands register themselves)

@@ -27,8 +27,8 @@ def _names(text: str | None, valid: tuple[str, ...], default: list[str], what: s
     return names
 
 
-def ranking_table(result) -> Grid:
-    """Runs ranked by realised out-of-sample variance reduction."""
+def ranking_table(result, rank: str = "gross") -> Grid:
+    """Runs ranked by realised out-of-sample variance reduction (gross or net of cost)."""
     cur, h = result.currency, result.horizon_days
     t = Grid(f"Backtest — {result.book.book.name}: {len(result.dates)} rebalances every "
              f"{result.step} days, {h}-day horizon, window {result.window} rows "
@@ -36,12 +36,13 @@ def ranking_table(result) -> Grid:
              [Column("rank"), Column("strategy", "left"), Column("estimator", "left"),
               Column("realised VR"), Column("in-sample VR"), Column(f"hedged std {cur}"),
               Column(f"worst {h}-d loss {cur}"), Column("contracts traded"),
-              Column(f"trading cost {cur}"), Column("held")], keys=3)
-    for rank, m in enumerate(result.metrics(), 1):
+              Column(f"trading cost {cur}"), Column("net VR"), Column("held")], keys=3)
+    for pos, m in enumerate(result.metrics(rank), 1):
         digits = 1 if m.strategy == "joint-continuous" else 0
-        t.add_row(str(rank), m.strategy, m.estimator or "—", pct(m.variance_reduction),
+        t.add_row(str(pos), m.strategy, m.estimator or "—", pct(m.variance_reduction),
                   pct(m.predicted_vr), money(m.hedged_std), money(m.worst_loss),
-                  num(m.contracts_traded, digits), money(m.trading_cost), str(m.held))
+                  num(m.contracts_traded, digits), money(m.trading_cost),
+                  pct(m.net_variance_reduction, 2), str(m.held))
     return t
 
 
@@ -106,22 +107,29 @@ def register(app: typer.Typer) -> None:
         as_json: bool = typer.Option(False, "--json", help="Print one JSON object on stdout."),
         png: Path | None = typer.Option(None, "--png", help="Write the cumulative P&L chart."),
         workers: int = workers_option(1, "Local processes (one estimator per job)."),
+        rank: str = typer.Option("gross", "--rank",
+                                 help="Rank by realised VR gross or net of trading cost."),
     ) -> None:
         """Rolling out-of-sample backtest: each strategy and estimator, ranked by realised
         variance reduction, with hedge-effectiveness evidence."""
         from basiswise.optimizer.backtest.effectiveness import EVIDENCE_NOTE
         from basiswise.optimizer.backtest.engine import run_backtest
-        from basiswise.optimizer.backtest.strategies import STRATEGIES
+        from basiswise.optimizer.backtest.strategies import ALL_STRATEGIES, STRATEGIES
         from basiswise.optimizer.pipeline import prepare
         from basiswise.optimizer.results.cautions import CAUTIONS
 
+        if rank not in ("gross", "net"):
+            fail(f"unknown ranking '{rank}'; valid: gross, net")
         if method not in WHOLE_METHODS:
             fail(f"unknown method '{method}'; valid: {', '.join(WHOLE_METHODS)}")
         check_ranges(every=(every, 1, False), window=(window, 2, False),
                      horizon=(horizon, 1, False), time_limit=(time_limit, 0, True),
                      workers=(workers, 1, False))
         prep = prepare(book, window=window, horizon_days=horizon)
-        strat = _names(strategies, STRATEGIES, list(STRATEGIES), "strategy")
+        default = list(STRATEGIES)
+        if prep.book.costs.price_of_risk is not None or prep.book.costs.budget is not None:
+            default.append("joint-whole-cost")  # the book prices its trades: compare net
+        strat = _names(strategies, ALL_STRATEGIES, default, "strategy")
         ests = _names(estimators, ESTIMATORS, [prep.book.estimation.estimator], "estimator")
         with Progress(TextColumn("backtest"), BarColumn(), MofNCompleteColumn(),
                       TimeElapsedColumn(), console=err, transient=True,
@@ -147,7 +155,7 @@ def register(app: typer.Typer) -> None:
             d["notes"] = list(prep.notes) + d["notes"]  # e.g. the rows as_of left out
             print(json.dumps(d, indent=2))
             return
-        show(out, ranking_table(result))
+        show(out, ranking_table(result, rank))
         for line in RANKING_GUIDE:
             note(out, line, "")
         show(out, effectiveness_table(result))

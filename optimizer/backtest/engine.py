@@ -93,6 +93,8 @@ class Run:
     predicted_var0: np.ndarray
     statuses: tuple[str, ...]
     seconds: float
+    costs: np.ndarray | None = None  # cost paid at each rebalance, currency (backtest_costs)
+    turnover: float = 0.0            # traded notional over the backtest, currency
 
     @property
     def label(self) -> str:
@@ -117,6 +119,9 @@ class RunMetrics:
     predicted_vr: float
     rebalances: int
     held: int
+    net_variance_reduction: float | None = None  # net of cost, see optimizer.backtest.costs
+    net_hedged_std: float | None = None
+    turnover: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -151,8 +156,11 @@ class BacktestResult:
     def hedged_held(self, run: Run) -> np.ndarray:
         return self.exposure_held.sum(axis=1) + run.held_leg.sum(axis=1)
 
-    def metrics(self) -> list[RunMetrics]:
-        """One line per run, ranked by realised variance reduction (best first)."""
+    def metrics(self, rank: str = "gross") -> list[RunMetrics]:
+        """One line per run, ranked by realised variance reduction, ``gross`` or ``net`` of
+        cost (best first)."""
+        from .costs import net_figures
+
         un = self.unhedged_horizon
         var_un = float(np.var(un, ddof=1))
         cost = np.array([float(i.cost_per_contract) for i in self.book.instruments])
@@ -161,12 +169,17 @@ class BacktestResult:
             hedged = self.hedged_horizon(run)
             var_h = float(np.var(hedged, ddof=1))
             traded = np.abs(run.trades)
+            paid = run.costs if run.costs is not None else traded @ cost
+            net_vr, net_std = net_figures(hedged, paid, var_un)
             out.append(RunMetrics(
                 run.strategy, run.estimator, 1.0 - var_h / var_un, math.sqrt(var_h),
                 math.sqrt(var_un), float(max(0.0, -hedged.min())), float(traded.sum()),
-                float((traded @ cost).sum()), _pooled(run), len(hedged),
-                sum(s.startswith("held") for s in run.statuses)))
-        return sorted(out, key=lambda m: -m.variance_reduction)
+                float(paid.sum()), _pooled(run), len(hedged),
+                sum(s.startswith("held") for s in run.statuses), net_vr, net_std,
+                run.turnover))
+        key = (lambda m: -m.net_variance_reduction) if rank == "net" else (
+            lambda m: -m.variance_reduction)
+        return sorted(out, key=key)
 
     def run(self, strategy: str, estimator: str | None = None) -> Run:
         """The run of ``strategy`` (with ``estimator`` unless the strategy needs none)."""
@@ -256,14 +269,15 @@ def stable_qp(qp: HedgeQP, rows: int) -> HedgeQP:
 
 
 def _solve_joint(book: Book, changes, estimate, current: np.ndarray, *, whole: bool, method: str,
-                 time_limit: float, reuse: bool) -> tuple[np.ndarray, str]:
+                 time_limit: float, reuse: bool, daily_vol=None) -> tuple[np.ndarray, str]:
     """Target of a joint strategy; on failure the previous positions are held."""
     try:
         model = build_hedge_model(_with_current(book, current), changes, estimate,
-                                  fractional=not whole)
+                                  fractional=not whole, daily_vol=daily_vol)
     except InputError as exc:
         return current.copy(), f"held: {exc.message}"
-    qp = stable_qp(model.qp, len(model.series))
+    # a problem with trading cost is built fresh anyway; its boxes stay as they are
+    qp = model.qp if model.qp.cost is not None else stable_qp(model.qp, len(model.series))
     how = method if whole else "continuous"
     start = np.round(current) if whole else None  # yesterday's hedge: a good first incumbent
     sol = solve_qp(qp, how, time_limit=time_limit, reuse=reuse, start=start)
@@ -320,6 +334,9 @@ def run_backtest(
         prep = prepare(book.book, **overrides)
     bk = prep.book
     strategies = check_strategies(list(strategies))
+    from .costs import DateCosts, book_for, check_cost_strategy
+
+    check_cost_strategy(bk, strategies)
     estimators = list(estimators) if estimators else [bk.estimation.estimator]
     for e in estimators:
         if e not in ESTIMATORS:
@@ -360,8 +377,12 @@ def run_backtest(
     secs = dict.fromkeys(keys, 0.0)
     prev = {key: start.copy() for key in keys}
     fixed_one = None
+    dcost = DateCosts(bk, C, series, R)
     for r, t in enumerate(rows):
-        changes = book_changes(panel.as_of(t, t - W + 1), bk, window=None)
+        hist = panel.as_of(t, t - W + 1)
+        changes = book_changes(hist, bk, window=None)
+        vol = dcost.vol(hist, W)
+        dcost.record(r, np.asarray(changes.last_prices, dtype=float), vol)
         sample_cov = dollar_covariance(
             np.atleast_2d(np.cov(changes.values, rowvar=False)), changes)
         v0_sample = predicted_variance(E, C, sample_cov, np.zeros(n))
@@ -387,9 +408,9 @@ def run_backtest(
                 if strategy == "single-mv":
                     x, status = single_mv(E, C, cov, resolve_proxies(bk, E, C, cov)), "ok"
                 else:
-                    x, status = _solve_joint(bk, changes, est, prev[key],
-                                             whole=(strategy == "joint-whole"), method=method,
-                                             time_limit=time_limit, reuse=reuse)
+                    x, status = _solve_joint(book_for(bk, strategy), changes, est, prev[key],
+                                             whole=strategy != "joint-continuous", method=method,
+                                             time_limit=time_limit, reuse=reuse, daily_vol=vol)
             tgt[key][r] = x
             prev[key] = x
             pvr[key][r] = 1.0 - predicted_variance(E, C, cov, x) / v0 if v0 > 0 else 0.0
@@ -407,7 +428,7 @@ def run_backtest(
         first = np.zeros(n) if key[0] == "unhedged" else start
         trades = np.diff(np.vstack([first, T]), axis=0)
         runs.append(Run(key[0], key[1], T, trades, T * per_h, T * per_k, pvr[key], pv0[key],
-                        tuple(stat[key]), secs[key]))
+                        tuple(stat[key]), secs[key], dcost.of(trades), dcost.turnover(trades)))
     notes = []
     if k < H:
         notes.append(f"rebalancing every {k} days with a {H}-day horizon: horizon P&Ls overlap")

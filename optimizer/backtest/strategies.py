@@ -47,18 +47,21 @@ from basiswise.data_adapters.units import units_in_price_unit
 from ..problem.model import book_position
 
 STRATEGIES = ("unhedged", "one-to-one", "single-mv", "joint-continuous", "joint-whole")
+#: every strategy name accepted; ``joint-whole-cost`` (trading cost in the problem, see
+#: optimizer.backtest.costs) needs a [costs] setting and is run only when asked for
+ALL_STRATEGIES = (*STRATEGIES, "joint-whole-cost")
 #: strategies whose positions do not depend on the covariance estimator
 ESTIMATOR_FREE = ("unhedged", "one-to-one")
 #: strategies solved through the hedge problem with the book's limits
-JOINT = ("joint-continuous", "joint-whole")
+JOINT = ("joint-continuous", "joint-whole", "joint-whole-cost")
 
 
 def check_strategies(names: list[str] | tuple[str, ...]) -> list[str]:
     """Validate strategy names (``InputError`` naming the unknown one), keep order, drop repeats."""
     out: list[str] = []
     for name in names:
-        if name not in STRATEGIES:
-            raise InputError(f"unknown strategy {name!r}; valid: {', '.join(STRATEGIES)}",
+        if name not in ALL_STRATEGIES:
+            raise InputError(f"unknown strategy {name!r}; valid: {', '.join(ALL_STRATEGIES)}",
                              key="strategies")
         if name not in out:
             out.append(name)

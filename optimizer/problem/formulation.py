@@ -76,6 +76,7 @@ class FormulationResult:
     dual_rows: np.ndarray | None = None
     dual_margin: float | None = None
     solver: str = ""
+    dual_cost: float | None = None  # multiplier of the cost budget (problem.cost_formulation)
 
 
 class HedgeFormulation:
@@ -191,6 +192,10 @@ def formulation_for(qp: HedgeQP, *, integer: bool = False, reuse: bool = True) -
 
 def solve_relaxed(qp: HedgeQP, *, reuse: bool = True) -> FormulationResult:
     """Continuous optimum of ``qp`` with duals: the proven lower bound for any integer answer."""
+    if qp.cost is not None:
+        from .cost_formulation import solve_relaxed_costs
+
+        return solve_relaxed_costs(qp)
     return formulation_for(qp, integer=False, reuse=reuse).solve(qp)
 
 
@@ -202,6 +207,10 @@ def solve_scip(
     reuse: bool = True,
 ) -> FormulationResult:
     """Integer optimum of ``qp`` through cvxpy's mixed-integer interface with SCIP."""
+    if qp.cost is not None:
+        from .cost_formulation import solve_scip_costs
+
+        return solve_scip_costs(qp, time_limit=time_limit)
     return formulation_for(qp, integer=True, reuse=reuse).solve(
         qp, time_limit=time_limit, start=start
     )

@@ -32,6 +32,8 @@ from basiswise.data_adapters.units import units_in_price_unit
 
 from ..estimation.changes import Changes, dollar_covariance
 from ..estimation.covariance import CovarianceEstimate
+from .cost_problem import apply_costs
+from .costs import CostModel, cost_model
 from .qp import HedgeQP
 
 
@@ -79,6 +81,7 @@ class HedgeModel:
     variance0: float
     qp: HedgeQP
     sources: LimitSources
+    costs: CostModel | None = None  # trading-cost coefficients (problem.costs), currency
 
     @property
     def exposure_ids(self) -> list[str]:
@@ -197,6 +200,7 @@ def build_hedge_model(
     estimate: CovarianceEstimate,
     *,
     fractional: bool = False,
+    daily_vol=None,
 ) -> HedgeModel:
     """Assemble the hedge problem of ``book`` from horizon changes and their covariance.
 
@@ -210,6 +214,9 @@ def build_hedge_model(
         Covariance of ``changes.values``.
     fractional : bool
         Keep fractional bounds (continuous analysis) instead of whole-contract bounds.
+    daily_vol : pandas.Series, optional
+        Daily volatility of each series (:func:`optimizer.problem.costs.daily_volatility`) for the
+        impact term of the cost model; without it impact is 0.
     """
     series = list(changes.columns)
     cov = dollar_covariance(estimate.matrix, changes)
@@ -229,6 +236,8 @@ def build_hedge_model(
         book=book, series=series, prices=np.asarray(changes.last_prices, dtype=float), cov=cov,
         estimate=estimate, changes=changes, E=E, C=C, current=np.zeros(n), variance0=v0,
         qp=free, sources=LimitSources(("none",) * n, ("none",) * n),
+        costs=cost_model(book, C, np.asarray(changes.last_prices, dtype=float), series,
+                         daily_vol),
     )
     return with_limits(base, book, fractional=fractional)
 
@@ -278,5 +287,21 @@ def with_limits(model: HedgeModel, book: Book, *, fractional: bool = False) -> H
                   / float(book.constraints.margin_budget))
         budget = 1.0
     qp = replace(qp, lo=lo, hi=hi, G=G, h=h, margin=margin, margin_budget=budget,
-                 names=tuple(i.id for i in book.instruments), row_names=row_names)
-    return replace(model, book=book, qp=qp, sources=sources, current=current)
+                 names=tuple(i.id for i in book.instruments), row_names=row_names, cost=None)
+    costs = model.costs
+    if costs is not None and book is not model.book:  # limits/costs of a scenario book
+        costs = cost_model(book, model.C, model.prices, model.series,
+                           _vol_of(model.series, costs, model.C))
+    qp, sources = apply_costs(qp, book, costs, current, math.sqrt(model.variance0), sources)
+    return replace(model, book=book, qp=qp, sources=sources, current=current, costs=costs)
+
+
+def _vol_of(series: list[str], costs: CostModel, C: np.ndarray):
+    """Daily volatility per series recovered from a cost model (each instrument's series)."""
+    import pandas as pd
+
+    vol = {}
+    for j in range(C.shape[0]):
+        k = int(np.flatnonzero(C[j])[0]) if np.any(C[j]) else 0
+        vol[series[k]] = float(costs.daily_vol[j])
+    return pd.Series(vol)

@@ -26,6 +26,8 @@ from functools import cached_property
 
 import numpy as np
 
+from .cost_terms import CostTerms
+
 
 @dataclass(frozen=True)
 class HedgeQP:
@@ -66,6 +68,7 @@ class HedgeQP:
     offset: float = 0.0
     names: tuple[str, ...] = ()
     row_names: tuple[str, ...] = ()
+    cost: CostTerms | None = None  # trading cost (problem.cost_terms), None = variance only
 
     def __post_init__(self) -> None:
         n = self.M.shape[1]
@@ -100,6 +103,12 @@ class HedgeQP:
         return float(self.u @ self.u) + self.offset
 
     def value(self, x: np.ndarray) -> float:
+        """The objective at ``x``: normalised hedged variance ``‖M x + u‖² + offset``, plus the
+        trading cost when it is priced into the objective (:attr:`cost`)."""
+        v = self.variance(x)
+        return v if self.cost is None else v + self.cost.objective_part(x)
+
+    def variance(self, x: np.ndarray) -> float:
         """Normalised hedged variance ``‖M x + u‖² + offset`` at positions ``x``."""
         r = self.M @ np.asarray(x, dtype=float) + self.u
         return float(r @ r) + self.offset
@@ -115,6 +124,8 @@ class HedgeQP:
         if self.margin_budget is not None and self.margin is not None:
             if float(self.margin @ np.abs(x)) > self.margin_budget * (1 + tol) + tol:
                 out.append("margin budget")
+        if self.cost is not None:
+            out += self.cost.violations(x, tol)
         return out
 
     def is_feasible(self, x: np.ndarray, tol: float = 1e-7) -> bool:
@@ -127,4 +138,6 @@ class HedgeQP:
         if self.margin_budget is not None and self.margin is not None:
             if float(self.margin @ np.abs(x)) > self.margin_budget * (1 + tol) + tol:
                 return False
+        if self.cost is not None and self.cost.violations(x, tol):
+            return False
         return True

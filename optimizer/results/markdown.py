@@ -101,6 +101,9 @@ def to_markdown(r: HedgeReport, *, source: str = "", now: datetime | None = None
                            [[x.name, x.kind, _m(x.shadow), x.unit] for x in binding]), ""]
     if r.warnings:
         out += ["## Warnings", ""] + [f"- {w}" for w in r.warnings] + [""]
+    from .cost_markdown import execution_sections
+
+    out += execution_sections(r)
     if r.notes:
         out += ["## Notes", ""] + [f"- {n}" for n in r.notes] + [""]
     out += ["## Cautions", ""] + [f"- {c}" for c in r.cautions] + [""]

@@ -70,6 +70,14 @@ class HedgeReport:
     as_of: str | None = None             # decision date from [book] as_of (ISO), if set
     price_date: str | None = None        # last price date used (ISO)
     overrides: dict = field(default_factory=dict)   # settings replaced on the command line
+    # trading cost and execution (results.cost_report, sweeps.cost_frontier, results.schedule)
+    trading_cost: dict | None = None
+    cost_frontier: list[dict] | None = None
+    schedule: dict | None = None
+    provenance: dict | None = None
+    desk: dict | None = None              # per-line symbol, exchange, last trading day
+    objective: float | None = None        # normalised objective (variance share + cost term)
+    objective_bound: float | None = None  # proven lower bound on it
 
     @property
     def ok(self) -> bool:
@@ -86,6 +94,11 @@ class HedgeReport:
 
     def trade_list(self) -> pd.DataFrame:
         """The execution desk's list: one row per instrument with a non-zero trade."""
+        from .desk_fields import add_desk_columns
+
+        return add_desk_columns(self, self._trade_rows())
+
+    def _trade_rows(self) -> pd.DataFrame:
         rows = []
         for i in self.instruments:
             if i.side == "HOLD":
@@ -124,6 +137,18 @@ def build_report(model: HedgeModel, sol: HedgeSolution, notes: list[str] | None 
         # round-off when the whole-contract point is itself the continuous optimum
         rel_obj = min(rel_obj, sol.objective)
     rel_std = math.sqrt(max(rel_obj, 0.0)) * s0 if rel_obj is not None else None
+    diag = sol
+    if model.qp.cost is not None and sol.relaxed.x is not None:
+        # the cost-aware relaxation's value mixes risk and cost: bound the risk on its own
+        from dataclasses import replace as _replace
+
+        from ..problem.formulation import solve_relaxed
+
+        risk_only = solve_relaxed(_replace(model.qp, cost=None), reuse=False)
+        rel_obj = risk_only.objective
+        if risk_only.x is not None:  # shadow prices: risk removed per unit of limit
+            diag = _replace(sol, relaxed=risk_only)
+        rel_std = math.sqrt(max(rel_obj, 0.0)) * s0 if rel_obj is not None else None
     hedged = vr = cost = None
     inst, expo, limits = [], [], []
     margin_used = None
@@ -132,9 +157,11 @@ def build_report(model: HedgeModel, sol: HedgeSolution, notes: list[str] | None 
         hedged = math.sqrt(model.variance(x))
         vr = 1.0 - hedged**2 / s0**2
         cost = max(hedged - rel_std, 0.0) if rel_std is not None else None
-        inst = instrument_lines(model, sol)
+        if model.qp.cost is not None:
+            cost = None  # the gap to the risk-only bound is partly chosen (cost saved)
+        inst = instrument_lines(model, diag)
         expo = exposure_lines(model, x)
-        limits = limit_lines(model, sol)
+        limits = limit_lines(model, diag)
         margin_used = float(sum(i.target_margin for i in inst))
         if sol.status == "time-limited":
             notes.append(f"whole-contract search stopped at its time limit: {sol.detail}; the "
@@ -156,4 +183,15 @@ def build_report(model: HedgeModel, sol: HedgeSolution, notes: list[str] | None 
         margin_used=margin_used, margin_budget=book.constraints.margin_budget,
         solve_seconds=sol.seconds, solver_detail=sol.detail, instruments=inst, exposures=expo,
         limits=limits, notes=notes,
+        **_cost_fields(model, sol),
     )
+
+
+def _cost_fields(model: HedgeModel, sol: HedgeSolution) -> dict:
+    """Trading cost of the answer and the objective with its bound (optional report fields)."""
+    from .cost_report import trading_cost_summary
+
+    out: dict = {"objective": sol.objective, "objective_bound": sol.bound}
+    if sol.ok:
+        out["trading_cost"] = trading_cost_summary(model, np.asarray(sol.x, dtype=float))
+    return out

@@ -48,6 +48,7 @@ import numpy as np
 from scipy.linalg.lapack import dtrtri
 
 from ..problem.qp import HedgeQP
+from .cost_levels import cost_limit, cost_weight, psi_min_costs
 from .native_search import native_search, run_active_set
 
 __all__ = ["RootData", "lagrangian_terms", "finite_box", "search_order", "prepare_root", "polish",
@@ -73,6 +74,7 @@ class RootData:
     X: np.ndarray | None = None   # x = X y when levels are lattice coordinates (else permuted x)
     Gl: np.ndarray | None = None  # rows on the levels (lattice mode: box rows and G X)
     hl: np.ndarray | None = None
+    cw: float = 0.0               # weight of the cost tables in ψ (1 priced, μ budget, 0 none)
 
 
 def _psi_min(slope: np.ndarray, absw: np.ndarray, z: np.ndarray,
@@ -91,10 +93,14 @@ def _psi_min(slope: np.ndarray, absw: np.ndarray, z: np.ndarray,
 
 
 def lagrangian_terms(qp: HedgeQP, z: np.ndarray, lam: np.ndarray | None, mu: float | None,
-                     lo: np.ndarray, hi: np.ndarray):
+                     lo: np.ndarray, hi: np.ndarray, mu_cost: float | None = None):
     """``(K, slope, absw, psimin)`` of the Lagrangian bound for box ``[lo, hi]`` (original order).
 
-    ``K`` may be ``-inf`` when a ψ_j is unbounded below on an unlimited box.
+    ``K`` may be ``-inf`` when a ψ_j is unbounded below on an unlimited box. With trading cost
+    (``qp.cost``), ψ_j also holds ``w cost_j(x_j)`` (``w`` from :func:`cost_weight`; the cost
+    budget's multiplier ``mu_cost`` in the budget form) and ``K₀`` holds ``−w budget``: the
+    identity ``L(x) = K₀ + δᵀAδ + Σ ψ_j`` still holds, each ψ_j is still convex, and ψ̲_j is its
+    minimum over the whole values of the box (−inf on an unlimited box).
     """
     n = qp.n
     A, b = qp.A, qp.b
@@ -105,11 +111,17 @@ def lagrangian_terms(qp: HedgeQP, z: np.ndarray, lam: np.ndarray | None, mu: flo
     mu = max(float(mu), 0.0) if (has_m and mu is not None) else 0.0
     slope = 2.0 * g + (qp.G.T @ lam if qp.G.shape[0] else np.zeros(n))
     absw = mu * np.asarray(qp.margin, float) if has_m else np.zeros(n)
-    K0 = qp.value(z)
+    K0 = qp.variance(z)
     if qp.G.shape[0]:
         K0 += float(lam @ (qp.G @ z - qp.h))
     if has_m:
         K0 -= mu * float(qp.margin_budget)
+    if qp.cost is not None:
+        cw = cost_weight(qp, mu_cost)
+        if not qp.cost.in_objective and qp.cost.budget is not None:
+            K0 -= cw * float(qp.cost.budget)
+        psimin = psi_min_costs(qp, slope, absw, z, lo, hi, cw)
+        return K0 + float(psimin.sum()), slope, absw, psimin
     psimin = _psi_min(slope, absw, z, lo, hi)
     return K0 + float(psimin.sum()), slope, absw, psimin
 
@@ -134,8 +146,8 @@ def _inverse_diag(M: np.ndarray) -> np.ndarray | None:
     return diag
 
 
-def finite_box(qp: HedgeQP, lo: np.ndarray, hi: np.ndarray, centre: np.ndarray, radius2: float
-               ) -> tuple[np.ndarray, np.ndarray]:
+def finite_box(qp: HedgeQP, lo: np.ndarray, hi: np.ndarray, centre: np.ndarray, radius2: float,
+               cost_limit: float | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Intersect ``[lo, hi]`` with margin caps and the ellipsoid ``(x−c)ᵀA(x−c) ≤ radius2``.
 
     The ellipsoid box is applied only when ``radius2`` is finite and ``M`` is well conditioned;
@@ -149,6 +161,11 @@ def finite_box(qp: HedgeQP, lo: np.ndarray, hi: np.ndarray, centre: np.ndarray, 
             cap = np.where(m > 0, np.floor(float(qp.margin_budget) / np.where(m > 0, m, 1.0)
                                            * (1 + 1e-12) + _EPS), np.inf)
         lo, hi = np.maximum(lo, -cap), np.minimum(hi, cap)
+    if qp.cost is not None and cost_limit is not None and np.isfinite(cost_limit):
+        # a point can beat the incumbent (or meet the budget) only if each line's cost does
+        cap = np.floor(qp.cost.cap(max(float(cost_limit), 0.0)) * (1 + 1e-9) + _EPS)
+        lo = np.maximum(lo, qp.cost.current - cap)
+        hi = np.minimum(hi, qp.cost.current + cap)
     if np.isfinite(radius2):
         diag = _inverse_diag(qp.M)
         if diag is not None:
@@ -186,27 +203,29 @@ def search_order(A: np.ndarray, lo: np.ndarray, hi: np.ndarray, radius2: float) 
 
 
 def prepare_root(qp: HedgeQP, z: np.ndarray, lam, mu, lo: np.ndarray, hi: np.ndarray,
-                 f_inc: float) -> RootData | None:
+                 f_inc: float, mu_cost: float | None = None) -> RootData | None:
     """Bound, tightened finite boxes, order and factor; ``None`` if a box stays unlimited."""
     lo0, hi0 = lo, hi
-    K, slope, absw, psimin = lagrangian_terms(qp, z, lam, mu, lo, hi)
+    climit = cost_limit(qp, f_inc)
+    K, slope, absw, psimin = lagrangian_terms(qp, z, lam, mu, lo, hi, mu_cost)
     if np.isfinite(K) and np.isfinite(f_inc):
-        lo, hi = finite_box(qp, lo, hi, z, f_inc - K)
+        lo, hi = finite_box(qp, lo, hi, z, f_inc - K, climit)
     elif np.isfinite(f_inc):
         # no usable Lagrangian bound yet: f(x) − offset ≥ (x − x_ls)ᵀA(x − x_ls), x_ls the free
         # least-squares optimum
         x_ls = np.linalg.lstsq(qp.M, -qp.u, rcond=None)[0]
-        lo, hi = finite_box(qp, lo, hi, x_ls, f_inc - float(getattr(qp, "offset", 0.0)))
+        lo, hi = finite_box(qp, lo, hi, x_ls, f_inc - float(getattr(qp, "offset", 0.0)), climit)
     else:
-        lo, hi = finite_box(qp, lo, hi, z, np.inf)
+        lo, hi = finite_box(qp, lo, hi, z, np.inf, climit)
     if not (np.all(np.isfinite(lo)) and np.all(np.isfinite(hi))):
         return None
     if not (np.array_equal(lo, lo0) and np.array_equal(hi, hi0)):  # else the terms stand
-        K, slope, absw, psimin = lagrangian_terms(qp, z, lam, mu, lo, hi)
+        K, slope, absw, psimin = lagrangian_terms(qp, z, lam, mu, lo, hi, mu_cost)
     n = qp.n
+    cw = cost_weight(qp, mu_cost)
     if K >= f_inc:  # the incumbent is proven optimal: no search, so no order or factor
         return RootData(perm=np.arange(n), R=np.zeros((n, n)), z=np.asarray(z, float),
-                        slope=slope, absw=absw, psimin=psimin, lo=lo, hi=hi, K=float(K))
+                        slope=slope, absw=absw, psimin=psimin, lo=lo, hi=hi, K=float(K), cw=cw)
     radius2 = f_inc - K if np.isfinite(f_inc) else np.inf
     top_first = search_order(qp.A, lo, hi, radius2)
     perm = top_first[::-1].copy()  # level 0 is enumerated last
@@ -214,7 +233,8 @@ def prepare_root(qp: HedgeQP, z: np.ndarray, lam, mu, lo: np.ndarray, hi: np.nda
     R = np.zeros((n, n))
     R[: Rk.shape[0]] = Rk
     return RootData(perm=perm, R=R, z=np.asarray(z, float)[perm], slope=slope[perm],
-                    absw=absw[perm], psimin=psimin[perm], lo=lo[perm], hi=hi[perm], K=float(K))
+                    absw=absw[perm], psimin=psimin[perm], lo=lo[perm], hi=hi[perm], K=float(K),
+                    cw=cw)
 
 
 @dataclass(frozen=True)
@@ -245,7 +265,7 @@ def polish(qp: HedgeQP, relaxed, act_tol: float = 1e-6, max_iter: int | None = N
     n = qp.n
     z = np.asarray(relaxed.x, float)
     g = qp.G.shape[0]
-    if qp.margin_budget is not None and qp.margin is not None:
+    if (qp.margin_budget is not None and qp.margin is not None) or qp.cost is not None:
         return None
     # all constraints as rows c_i x <= d_i: upper bounds, lower bounds (as -x <= -lo), G rows
     fin_hi, fin_lo = np.flatnonzero(np.isfinite(qp.hi)), np.flatnonzero(np.isfinite(qp.lo))
@@ -328,7 +348,7 @@ def quick_relaxation(qp: HedgeQP, tol: float = 1e-9) -> KKTPoint | None:
     caller then solves the relaxation with the conic solver). Any answer gives a valid bound; the
     check only guards its tightness.
     """
-    if qp.margin_budget is not None and qp.margin is not None:
+    if (qp.margin_budget is not None and qp.margin is not None) or qp.cost is not None:
         return None
     lo, hi = np.asarray(qp.lo, float), np.asarray(qp.hi, float)
     if np.any(lo > hi):

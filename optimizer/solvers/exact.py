@@ -202,7 +202,8 @@ def solve_exact(qp: HedgeQP, *, time_limit: float = 30.0, relaxed=None, tol: flo
     if cand is not None and (inc is None or qp.value(cand) < qp.value(inc)):
         inc = cand
     f_inc = qp.value(inc) if inc is not None else math.inf
-    root = prepare_root(qp, z, lam, mu, lo, hi, f_inc)
+    mu_cost = getattr(relaxed, "dual_cost", None)  # cost budget's multiplier (trading cost)
+    root = prepare_root(qp, z, lam, mu, lo, hi, f_inc, mu_cost)
     kkt = quick if quick is not None else polish(qp, relaxed)
     if kkt is not None and quick is None:  # keep the multipliers of the higher (tighter) bound
         root2 = prepare_root(qp, kkt.x, kkt.dual_rows, kkt.dual_margin, lo, hi, f_inc)

@@ -54,6 +54,9 @@ class _Problem(ctypes.Structure):
         ("improved", ctypes.c_int), ("time_limit", ctypes.c_double),
         ("nodes", ctypes.c_longlong), ("stopped", ctypes.c_int),
         ("frontier", ctypes.c_double), ("cancel", ctypes.c_void_p),
+        ("has_c", ctypes.c_int), ("has_cb", ctypes.c_int), ("ctab", _P), ("coff", _P),
+        ("cw", ctypes.c_double), ("ow", ctypes.c_double), ("cbudget", ctypes.c_double),
+        ("ctol", ctypes.c_double), ("crest", _P), ("c0", _P), ("mt", _P),
     ]
 
 
@@ -205,6 +208,12 @@ def run_native(prep: dict, best_f: float, time_limit: float):
     p.best_f = float(best_f)
     p.best_y = best_y.ctypes.data
     p.time_limit = max(float(time_limit), 0.0)
+    p.has_c, p.has_cb = int(prep["has_c"]), int(prep["has_cb"])
+    p.ctab, p.coff = ptr("ctab", prep["ctab"]), iptr("coff", prep["coff"])
+    p.cw, p.ow = float(prep["cw"]), float(prep["ow"])
+    p.cbudget, p.ctol = float(prep["cbudget"]), float(prep["ctol"])
+    p.crest = ptr("crest", prep["crest"])
+    p.c0, p.mt = iptr("c0", prep["c0"]), iptr("mt", prep["mt"])
     cancel = ctypes.c_int(0)
     p.cancel = ctypes.addressof(cancel)
     if n <= _DIRECT_MAX_N or threading.current_thread() is not threading.main_thread():

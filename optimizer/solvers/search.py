@@ -48,6 +48,7 @@ import time
 import numpy as np
 
 from ..problem.qp import HedgeQP
+from .cost_levels import allowed_min, cost_levels, next_left, next_right
 from .levels import level_diagonals
 from .native_search import native_search, run_native
 
@@ -127,6 +128,7 @@ def prepare_levels(qp: HedgeQP, root, *, node_bounds: bool | None = None,
         # largest value the separable bound can take (each distance at most 1/2)
         capsep = 0.25 * D.sum(axis=1)
     return dict(n=n, g=g, X=X, R=R, z=zl, slope=np.asarray(root.slope, float),
+                **cost_levels(qp, root, perm),
                 absw=np.asarray(root.absw, float), psimin=np.asarray(root.psimin, float),
                 lo=np.asarray(root.lo).astype(np.int64), hi=np.asarray(root.hi).astype(np.int64),
                 G=Gl, h=hl, rest=rest, has_m=has_m, mg=mg, mrest=mrest, budget=budget,
@@ -187,6 +189,27 @@ def _search_python(qp: HedgeQP, prep: dict, best_f: float, best_x, deadline: flo
     budget, mtol = prep["budget"], prep["mtol"]
     floor, ceil, inf = math.floor, math.ceil, math.inf
     W, D, capsep = prep["W"], prep["D"], prep["capsep"]
+    has_c, has_cb = bool(prep["has_c"]), bool(prep["has_cb"])
+    ctab = [float(v) for v in prep["ctab"]]
+    coff = [int(v) for v in prep["coff"]]
+    cw, ow = float(prep["cw"]), float(prep["ow"])
+    crest = [float(v) for v in prep["crest"]]
+    cbud, ctol = float(prep["cbudget"]), float(prep["ctol"])
+    c0 = [int(v) for v in prep["c0"]]
+    mt = [int(v) for v in prep["mt"]]
+
+    def cost(i, v):
+        """Cost table of level i at value v (the box's own values only)."""
+        return ctab[coff[i] + v - lo[i]]
+
+    def step_left(i, v):
+        return next_left(mt[i], c0[i], v)
+
+    def step_right(i, v):
+        return next_right(mt[i], c0[i], v)
+
+    def descend(i, s, L, U, fn):
+        return allowed_min(mt[i], c0[i], s, L, U, fn)
 
     def below(k, c):
         """Separable bound Σ_l D_k,l (c_l − round c_l)² on the free levels 0 … k−1."""
@@ -197,7 +220,7 @@ def _search_python(qp: HedgeQP, prep: dict, best_f: float, best_x, deadline: flo
         """Lower bound on the subtrees of level i's values not yet entered (left…L, right…U)."""
         def phi(v):
             q = rd * v + tz
-            return q * q + si * v + wi * abs(v) + cz
+            return q * q + si * v + wi * abs(v) + cz + (cw * cost(i, v) if has_c else 0.0)
         if cv is None:
             return partial + min(phi(left) if left >= L else inf, phi(right) if right <= U else inf)
         low = state["f"]  # values at or above the incumbent are excluded already
@@ -215,7 +238,7 @@ def _search_python(qp: HedgeQP, prep: dict, best_f: float, best_x, deadline: flo
         """Free centre of levels 0 … i once level i + 1 is fixed at ``py``."""
         return pcv[:i + 1] + W[i + 1, :i + 1] * (py - pcv[i + 1])
 
-    def visit(i, partial, ms, qa, t, pcv, py):
+    def visit(i, partial, ms, qa, t, pcv, py, cs=0.0):
         nodes[0] += 1
         if not nodes[0] & 1023 and time.perf_counter() > deadline:
             raise _Stop(partial + (0.0 if pcv is None else below(i + 1, centre(i, pcv, py))))
@@ -243,11 +266,23 @@ def _search_python(qp: HedgeQP, prep: dict, best_f: float, best_x, deadline: flo
                     U = k
                 if -k > L:
                     L = -k
+        if has_cb:  # values whose cost still fits the budget (cost convex in v: an interval)
+            capc = cbud - cs - crest[i] + ctol
+            if capc < 0:
+                return
+            while L <= U and cost(i, L) > capc:
+                L += 1
+            while U >= L and cost(i, U) > capc:
+                U -= 1
         if L > U:
             return
         rd, zi, si, wi, pmi = Rd[i], z[i], sl[i], aw[i], pm[i]
         tz = t - rd * zi  # quadratic term is (rd*v + tz)^2
         cz = -si * zi - pmi
+        if has_c:
+            def phi(v):
+                q = rd * v + tz
+                return q * q + si * v + wi * abs(v) + cz + cw * cost(i, v)
 
         # integer minimiser of the convex phi(v) = (rd v + tz)^2 + si v + wi |v| + cz on [L, U]
         if rd * rd > 1e-14:
@@ -261,15 +296,20 @@ def _search_python(qp: HedgeQP, prep: dict, best_f: float, best_x, deadline: flo
         else:
             cand = 0.0 if wi >= abs(si) else (L if si > 0 else U)
         s = min(max(int(round(cand)), L), U)
-        q = rd * s + tz
-        ps = q * q + si * s + wi * abs(s) + cz
-        while s > L:
+        if has_c:
+            s, ps = descend(i, s, L, U, phi)
+            if s is None:
+                return
+        else:
+            q = rd * s + tz
+            ps = q * q + si * s + wi * abs(s) + cz
+        while s > L and not has_c:
             q = rd * (s - 1) + tz
             v = q * q + si * (s - 1) + wi * abs(s - 1) + cz
             if v >= ps:
                 break
             s, ps = s - 1, v
-        while s < U:
+        while s < U and not has_c:
             q = rd * (s + 1) + tz
             v = q * q + si * (s + 1) + wi * abs(s + 1) + cz
             if v >= ps:
@@ -294,12 +334,22 @@ def _search_python(qp: HedgeQP, prep: dict, best_f: float, best_x, deadline: flo
                 v = min(max(int(round(-(tz * rd + 0.5 * g0) / a0)), L), U)
             else:
                 v = L if rd * tz + 0.5 * g0 > 0 else U
-            q = rd * v + tz
-            if fz + qa + q * q + g0 * (v - zi) >= best + 1e-13 * (1.0 + abs(best)):
-                return
+            if has_c:  # the leaf's true objective adds its cost: convex in v as well
+                def leaf(w):
+                    q = rd * w + tz
+                    return q * q + g0 * (w - zi) + ow * cost(0, w)
+                v, hv = descend(0, v, L, U, leaf)
+                if v is None or fz + qa + ow * cs + hv >= best + 1e-13 * (1.0 + abs(best)):
+                    return
+            else:
+                q = rd * v + tz
+                if fz + qa + q * q + g0 * (v - zi) >= best + 1e-13 * (1.0 + abs(best)):
+                    return
             xs[0] = v
             r = Mp @ xs + u
             fv = float(r @ r) + off
+            if has_c:
+                fv += ow * (cs + cost(0, v))
             if fv < best:
                 x_orig = X @ xs
                 if qp.is_feasible(x_orig):
@@ -309,17 +359,22 @@ def _search_python(qp: HedgeQP, prep: dict, best_f: float, best_x, deadline: flo
         # the child's coupling t_{i−1} = Σ_{j≥i} R_{i−1,j} δ_j, linear in this level's value
         tb = float(R[i - 1, i + 1:] @ delta[i + 1:]) if i < n - 1 else 0.0
         rc = R1[i]
-        left, right = s - 1, s + 1
-        if left >= L:
-            q = rd * left + tz
-            pl = q * q + si * left + wi * abs(left) + cz
+        if has_c:
+            left, right = step_left(i, s), step_right(i, s)
+            pl = phi(left) if left >= L else inf
+            pr = phi(right) if right <= U else inf
         else:
-            pl = inf
-        if right <= U:
-            q = rd * right + tz
-            pr = q * q + si * right + wi * abs(right) + cz
-        else:
-            pr = inf
+            left, right = s - 1, s + 1
+            if left >= L:
+                q = rd * left + tz
+                pl = q * q + si * left + wi * abs(left) + cz
+            else:
+                pl = inf
+            if right <= U:
+                q = rd * right + tz
+                pr = q * q + si * right + wi * abs(right) + cz
+            else:
+                pr = inf
         cur, pc = s, ps
         pass_cv = cv is not None and i > 2
         while True:
@@ -335,7 +390,7 @@ def _search_python(qp: HedgeQP, prep: dict, best_f: float, best_x, deadline: flo
             q = rd * cur + tz
             try:
                 visit(i - 1, v, ms + mi * abs(cur), qa + q * q + g2i * dc, tc,
-                      cv if pass_cv else None, cur)
+                      cv if pass_cv else None, cur, cs + cost(i, cur) if has_c else 0.0)
             except _Stop as stop:  # add the bound of this level's unexplored values
                 stop.partial = min(stop.partial, unexplored(
                     i, partial, cv, left, right, L, U, rd, tz, si, wi, cz))
@@ -346,6 +401,10 @@ def _search_python(qp: HedgeQP, prep: dict, best_f: float, best_x, deadline: flo
                 if pl == inf:
                     break
                 cur, pc = left, pl
+                if has_c:
+                    left = step_left(i, left)
+                    pl = phi(left) if left >= L else inf
+                    continue
                 left -= 1
                 if left >= L:
                     q = rd * left + tz
@@ -354,6 +413,10 @@ def _search_python(qp: HedgeQP, prep: dict, best_f: float, best_x, deadline: flo
                     pl = inf
             else:
                 cur, pc = right, pr
+                if has_c:
+                    right = step_right(i, right)
+                    pr = phi(right) if right <= U else inf
+                    continue
                 right += 1
                 if right <= U:
                     q = rd * right + tz

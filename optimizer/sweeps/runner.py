@@ -196,7 +196,13 @@ class SweepRunner:
         if mkey not in self._models:
             only_removed = Scenario(sc.name, {"remove": sorted(sc.removed)} if sc.removed else {})
             free = _limit_free(apply_scenario(est_book, only_removed))
-            self._models[mkey] = build_hedge_model(free, ch, cov, fractional=self.fractional)
+            vol = None  # daily volatility for the impact term of the cost model
+            if any((i.impact_coefficient or 0) > 0 for i in est_book.instruments):
+                from ..problem.costs import daily_volatility
+
+                vol = daily_volatility(self.prep.panel.prices, est_book.estimation.window)
+            self._models[mkey] = build_hedge_model(free, ch, cov, fractional=self.fractional,
+                                                   daily_vol=vol)
         return self._models[mkey], apply_scenario(est_book, sc)
 
     def _stress(self, sc: Scenario, model: HedgeModel, x: np.ndarray | None) -> dict | None:

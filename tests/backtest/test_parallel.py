@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import numpy as np
+import pytest
 
 from basiswise.optimizer.backtest.engine import run_backtest
 from basiswise.optimizer.backtest.parallel import run_backtest_parallel
@@ -18,5 +19,6 @@ def test_two_processes_equal_serial():
         [(r.strategy, r.estimator) for r in serial.runs]
     for a, b in zip(serial.runs, par.runs, strict=True):
         np.testing.assert_allclose(a.targets, b.targets, atol=1e-8)
-    assert [m.variance_reduction for m in par.metrics()] == \
-        [m.variance_reduction for m in serial.metrics()]
+    # one BLAS thread per worker: equal up to floating-point summation order
+    assert [m.variance_reduction for m in par.metrics()] == pytest.approx(
+        [m.variance_reduction for m in serial.metrics()], rel=1e-9)

@@ -98,8 +98,9 @@ def test_stress_pnl_equals_numpy_on_the_model(demo, serial):
         float((model.E.sum(0) + model.C.T @ n) @ dP), rel=1e-10)
 
 
-def test_wide_limits_reach_the_unconstrained_optimum(demo):
-    path, _ = demo
+def test_wide_limits_reach_the_unconstrained_optimum(tmp_path):
+    path = copy_demo(tmp_path)  # the variance-only problem: without the [costs] table
+    path.write_text(path.read_text().split("\n[costs]")[0] + "\n")
     book = load_book(path)
     ss = parse_scenarios({"sweep": {"include_base": False}, "scenario": [
         {"name": "free", "limit_scale": 1e4, "adv_scale": 1e6, "margin_budget": 1e12}]}, book)

@@ -50,6 +50,15 @@ typedef struct {
     int stopped;           /* out */
     double frontier;       /* out: lower bound on every unexplored point when stopped */
     volatile int *cancel;  /* when set non-zero by another thread, stop as at the time limit */
+    /* trading cost (optimizer/integer_cost_levels.py): per-level tables of cost(v), v = lo..hi */
+    int has_c, has_cb;
+    const double *ctab;    /* concatenated tables */
+    const long long *coff; /* n: start of level i's table */
+    double cw, ow;         /* weight of the table in phi; in the leaf objective */
+    double cbudget, ctol;  /* cost budget (has_cb) and its tolerance */
+    const double *crest;   /* n: cheapest cost of the levels below i */
+    const long long *c0;   /* n: position held now */
+    const long long *mt;   /* n: minimum trade size (1 = any) */
 } BwProblem;
 
 typedef struct {
@@ -98,14 +107,100 @@ static inline double phi(double v, double rd, double tz, double si, double wi, d
     return q * q + si * v + wi * fabs(v) + cz;
 }
 
+static inline double cost_at(const BwProblem *p, int i, long long v) {
+    return p->ctab[p->coff[i] + (v - p->lo[i])];
+}
+
+/* phi plus the level's cost term (the cost twin of phi) */
+static inline double phic(const BwProblem *p, int i, long long v, double rd, double tz, double si,
+                          double wi, double cz) {
+    double r = phi((double)v, rd, tz, si, wi, cz);
+    return p->has_c ? r + p->cw * cost_at(p, i, v) : r;
+}
+
+static inline int allowed(const BwProblem *p, int i, long long v) {
+    long long m = p->has_c ? p->mt[i] : 1, c;
+    if (m <= 1) return 1;
+    c = p->c0[i];
+    return v == c || llabs(v - c) >= m;
+}
+
+/* next value below / above v that a minimum trade size allows */
+static inline long long step_left(const BwProblem *p, int i, long long v) {
+    long long w = v - 1;
+    if (p->has_c && p->mt[i] > 1) {
+        long long c = p->c0[i], m = p->mt[i];
+        if (c < w && w < c + m) w = c;
+        else if (c - m < w && w < c) w = c - m;
+    }
+    return w;
+}
+
+static inline long long step_right(const BwProblem *p, int i, long long v) {
+    long long w = v + 1;
+    if (p->has_c && p->mt[i] > 1) {
+        long long c = p->c0[i], m = p->mt[i];
+        if (c - m < w && w < c) w = c;
+        else if (c < w && w < c + m) w = c + m;
+    }
+    return w;
+}
+
+/* value of the convex function minimised at a level (kind 0: phic) or at the leaf (kind 1) */
+typedef struct {
+    const BwProblem *p;
+    int i, kind;
+    double rd, tz, si, wi, cz, g0, zi;
+} Fn;
+
+static inline double fn_at(const Fn *f, long long v) {
+    if (f->kind == 0) return phic(f->p, f->i, v, f->rd, f->tz, f->si, f->wi, f->cz);
+    double q = f->rd * (double)v + f->tz;
+    return q * q + f->g0 * ((double)v - f->zi) + f->p->ow * cost_at(f->p, f->i, v);
+}
+
+/* minimiser of f over the allowed values of [L, U], from near s; returns 0 when there is none */
+static int descend(const Fn *f, long long s, long long L, long long U, long long *out,
+                   double *val) {
+    const BwProblem *p = f->p;
+    int i = f->i;
+    if (!allowed(p, i, s)) {
+        long long a = step_left(p, i, s), b = step_right(p, i, s);
+        int oka = a >= L && a <= U, okb = b >= L && b <= U;
+        if (!oka && !okb) return 0;
+        if (oka && okb) s = fn_at(f, a) <= fn_at(f, b) ? a : b;
+        else s = oka ? a : b;
+    }
+    double ps = fn_at(f, s);
+    for (;;) {
+        long long v = step_left(p, i, s);
+        if (v < L) break;
+        double pv = fn_at(f, v);
+        if (pv >= ps) break;
+        s = v;
+        ps = pv;
+    }
+    for (;;) {
+        long long v = step_right(p, i, s);
+        if (v > U) break;
+        double pv = fn_at(f, v);
+        if (pv >= ps) break;
+        s = v;
+        ps = pv;
+    }
+    *out = s;
+    *val = ps;
+    return 1;
+}
+
 /* lower bound on the values of level i not yet entered (left..L and right..U) */
 static double unexplored(Ctx *x, int i, double partial, int has_cv, long long left,
                          long long right, long long L, long long U, double rd, double tz,
                          double si, double wi, double cz) {
     BwProblem *p = x->p;
     if (!has_cv) {
-        double a = left >= L ? phi((double)left, rd, tz, si, wi, cz) : INFINITY;
-        double b = right <= U ? phi((double)right, rd, tz, si, wi, cz) : INFINITY;
+        double a = left >= L ? phic(p, i, left, rd, tz, si, wi, cz) : INFINITY;
+        double b = right <= U ? phic(p, i, right, rd, tz, si, wi, cz) : INFINITY;
         return partial + (a < b ? a : b);
     }
     double low = p->best_f;
@@ -130,7 +225,7 @@ static double unexplored(Ctx *x, int i, double partial, int has_cv, long long le
 }
 
 static void visit(Ctx *x, int i, double partial, double ms, double qa, double t, int has_cv,
-                  double py) {
+                  double py, double cs) {
     BwProblem *p = x->p;
     int n = p->n;
     p->nodes++;
@@ -167,9 +262,16 @@ static void visit(Ctx *x, int i, double partial, double ms, double qa, double t,
             if (-k > L) L = -k;
         }
     }
+    if (p->has_cb) { /* values whose cost still fits the budget (an interval: cost is convex) */
+        double capc = p->cbudget - cs - p->crest[i] + p->ctol;
+        if (capc < 0) return;
+        while (L <= U && cost_at(p, i, L) > capc) L++;
+        while (U >= L && cost_at(p, i, U) > capc) U--;
+    }
     if (L > U) return;
     double rd = p->R[(size_t)i * n + i], zi = p->z[i], si = p->sl[i], wi = p->aw[i];
     double tz = t - rd * zi, cz = -si * zi - p->pm[i];
+    Fn fl = {p, i, 0, rd, tz, si, wi, cz, 0.0, zi};
     double cand;
     if (rd * rd > 1e-14) {
         double c0 = -tz / rd, d2 = 2 * rd * rd;
@@ -186,14 +288,19 @@ static void visit(Ctx *x, int i, double partial, double ms, double qa, double t,
     if (cr < (double)L) s = L;
     else if (cr > (double)U) s = U;
     else s = (long long)cr;
-    double ps = phi((double)s, rd, tz, si, wi, cz);
-    while (s > L) {
+    double ps;
+    if (p->has_c) {
+        if (!descend(&fl, s, L, U, &s, &ps)) return;
+    } else {
+        ps = phi((double)s, rd, tz, si, wi, cz);
+    }
+    while (s > L && !p->has_c) {
         double v = phi((double)(s - 1), rd, tz, si, wi, cz);
         if (v >= ps) break;
         s--;
         ps = v;
     }
-    while (s < U) {
+    while (s < U && !p->has_c) {
         double v = phi((double)(s + 1), rd, tz, si, wi, cz);
         if (v >= ps) break;
         s++;
@@ -216,9 +323,16 @@ static void visit(Ctx *x, int i, double partial, double ms, double qa, double t,
         } else {
             v = rd * tz + 0.5 * g0 > 0 ? L : U;
         }
-        double q = rd * (double)v + tz;
-        if (p->fz + qa + q * q + g0 * ((double)v - zi) >= best + 1e-13 * (1.0 + fabs(best)))
-            return;
+        if (p->has_c) { /* the leaf's true objective adds its cost: convex in v as well */
+            Fn fe = {p, 0, 1, rd, tz, 0.0, 0.0, 0.0, g0, zi};
+            double hv;
+            if (!descend(&fe, v, L, U, &v, &hv)) return;
+            if (p->fz + qa + p->ow * cs + hv >= best + 1e-13 * (1.0 + fabs(best))) return;
+        } else {
+            double q = rd * (double)v + tz;
+            if (p->fz + qa + q * q + g0 * ((double)v - zi) >= best + 1e-13 * (1.0 + fabs(best)))
+                return;
+        }
         x->xs[0] = (double)v;
         double fv = p->off;
         for (int a = 0; a < p->m; a++) {
@@ -227,6 +341,7 @@ static void visit(Ctx *x, int i, double partial, double ms, double qa, double t,
             for (int j = 0; j < n; j++) r += row[j] * x->xs[j];
             fv += r * r;
         }
+        if (p->has_c) fv += p->ow * (cs + cost_at(p, 0, v));
         if (fv < best) {
             p->best_f = fv;
             memcpy(p->best_y, x->xs, sizeof(double) * (size_t)n);
@@ -239,9 +354,9 @@ static void visit(Ctx *x, int i, double partial, double ms, double qa, double t,
     const double *Rn = p->R + (size_t)(i - 1) * n;
     for (int j = i + 1; j < n; j++) tb += Rn[j] * x->delta[j];
     double rc = Rn[i];
-    long long left = s - 1, right = s + 1;
-    double pl = left >= L ? phi((double)left, rd, tz, si, wi, cz) : INFINITY;
-    double pr = right <= U ? phi((double)right, rd, tz, si, wi, cz) : INFINITY;
+    long long left = step_left(p, i, s), right = step_right(p, i, s);
+    double pl = left >= L ? phic(p, i, left, rd, tz, si, wi, cz) : INFINITY;
+    double pr = right <= U ? phic(p, i, right, rd, tz, si, wi, cz) : INFINITY;
     long long cur = s;
     double pc = ps;
     int child_cv = has_cv && i > 2;
@@ -255,7 +370,7 @@ static void visit(Ctx *x, int i, double partial, double ms, double qa, double t,
         for (int e = x->rptr[i]; e < x->rptr[i + 1]; e++) x->gs[x->ridx[e]] += x->rcoef[e] * cur;
         double q = rd * (double)cur + tz;
         visit(x, i - 1, v, ms + mi * fabs((double)cur), qa + q * q + g2i * dc, tc, child_cv,
-              (double)cur);
+              (double)cur, p->has_c ? cs + cost_at(p, i, cur) : 0.0);
         if (x->stop) {
             double u = unexplored(x, i, partial, cv != NULL, left, right, L, U, rd, tz, si, wi,
                                   cz);
@@ -267,13 +382,13 @@ static void visit(Ctx *x, int i, double partial, double ms, double qa, double t,
             if (pl == INFINITY) break;
             cur = left;
             pc = pl;
-            left--;
-            pl = left >= L ? phi((double)left, rd, tz, si, wi, cz) : INFINITY;
+            left = step_left(p, i, left);
+            pl = left >= L ? phic(p, i, left, rd, tz, si, wi, cz) : INFINITY;
         } else {
             cur = right;
             pc = pr;
-            right++;
-            pr = right <= U ? phi((double)right, rd, tz, si, wi, cz) : INFINITY;
+            right = step_right(p, i, right);
+            pr = right <= U ? phic(p, i, right, rd, tz, si, wi, cz) : INFINITY;
         }
     }
 }
@@ -337,7 +452,7 @@ int bw_enumerate(BwProblem *p) {
     p->nodes = 0;
     p->improved = 0;
     p->stopped = 0;
-    visit(&x, n - 1, p->K, 0.0, 0.0, 0.0, p->sep, 0.0);
+    visit(&x, n - 1, p->K, 0.0, 0.0, 0.0, p->sep, 0.0, 0.0);
     if (x.stop) {
         p->stopped = 1;
         p->frontier = x.stop_bound;
