@@ -354,7 +354,9 @@ def load_contract_prices(book) -> PricePanel:
     frame = _read_table(book.prices_path, prices_file, d.table)
     _require_columns(frame, [d.date_column, roll.contract_column, d.price_column],
                      "contract price", prices_file)
-    wanted = book.series_ids()
+    from data_adapters.currency import needed_series
+
+    wanted = needed_series(book)
     months: dict[str, int] = {}
     plain: list[str] = []
     for name in wanted:

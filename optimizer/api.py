@@ -30,28 +30,51 @@ class Prepared:
 
     book: Book
     panel: PricePanel
+    currency_notes: tuple[str, ...] = ()
 
     @property
     def notes(self) -> list[str]:
         n = self.panel.dropped_rows
-        return [f"{n} price rows dropped to align series on common dates"] if n else []
+        dropped = [f"{n} price rows dropped to align series on common dates"] if n else []
+        return dropped + list(self.currency_notes)
 
 
-def prepare(book: Book | str | Path, **overrides) -> Prepared:
+def _panel_of(book: Book, prices) -> PricePanel:
+    """The book's own source, or ``prices`` given as a DataFrame (wide) or a file path."""
+    from data_adapters.currency import needed_series
+    from data_adapters.prices import panel_from_frame, read_prices
+
+    if prices is None:
+        return load_prices(book)
+    d, names = book.data, needed_series(book)
+    if isinstance(prices, pd.DataFrame):
+        return panel_from_frame(prices, series=names, date_column=d.date_column,
+                                max_gap_days=d.max_gap_days, source="prices (DataFrame)")
+    return read_prices(prices, format=d.format, series=names, date_column=d.date_column,
+                       series_column=d.series_column, price_column=d.price_column,
+                       max_gap_days=d.max_gap_days, table=d.table)
+
+
+def prepare(book: Book | str | Path, prices=None, **overrides) -> Prepared:
     """Load and validate a book and its prices; ``overrides`` replace estimation settings.
 
+    ``prices`` replaces the book's ``[data]`` source: a wide DataFrame (a ``DatetimeIndex`` or a
+    date column, one column per series) or a price file. Prices in other currencies are turned
+    into the book currency (:func:`data_adapters.currency.to_book_currency`).
     Accepted overrides: ``estimator``, ``window``, ``horizon_days``, ``changes``, ``sampling``
     (``None`` values are ignored).
     """
+    from data_adapters.currency import to_book_currency
+
     if not isinstance(book, Book):
         book = load_book(book)
     overrides = {k: v for k, v in overrides.items() if v is not None}
     if overrides:
         book = book.with_overrides(**overrides)
-    panel = load_prices(book)
+    book, panel, fx_notes = to_book_currency(book, _panel_of(book, prices))
     if book.estimation.changes in ("relative", "log"):
         check_positive(panel, list(panel.prices.columns))
-    return Prepared(book, panel)
+    return Prepared(book, panel, tuple(fx_notes))
 
 
 def model_of(prep: Prepared, *, fractional: bool = False, prices=None, as_of=None) -> HedgeModel:
@@ -89,8 +112,11 @@ def solve_model(model: HedgeModel, method: str = "exact", *, time_limit: float =
 
 
 def solve_book(book: Book | str | Path, method: str = "exact", *, time_limit: float = 30.0,
-               **overrides) -> HedgeReport:
-    """Hedge a book end to end: load, estimate, solve in whole contracts (by default), report."""
-    prep = prepare(book, **overrides)
+               prices=None, **overrides) -> HedgeReport:
+    """Hedge a book end to end: load, estimate, solve in whole contracts (by default), report.
+
+    ``prices`` (a DataFrame or a file) replaces the book's ``[data]`` source, see :func:`prepare`.
+    """
+    prep = prepare(book, prices, **overrides)
     model = model_of(prep, fractional=(method == "continuous"))
     return solve_model(model, method, time_limit=time_limit, notes=prep.notes)
