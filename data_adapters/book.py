@@ -84,6 +84,8 @@ class DataSpec(_Model):
     db_schema: str | None = Field(None, min_length=1)
     start: date | None = None
     end: date | None = None
+    calendar: str | None = Field(None, min_length=1)  # market calendar (data_adapters.calendars)
+    holidays: str | None = Field(None, min_length=1)  # or a file of closing days
     format: str = "wide"
     date_column: str = Field("date", min_length=1)
     series_column: str = Field("series", min_length=1)
