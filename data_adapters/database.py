@@ -24,7 +24,8 @@ import pandas as pd
 
 from data_adapters.errors import InputError
 
-__all__ = ["database_source", "open_engine", "read_database", "read_sqlite_file"]
+__all__ = ["database_source", "fetch_frame", "open_engine", "read_database",
+           "read_sqlite_file"]
 
 _DIALECTS = ("sqlite", "postgresql")
 
@@ -153,9 +154,18 @@ def read_database(book, series: list[str]):
     asked for. Raises InputError naming the key, table or column at fault: unreachable server,
     missing table or column, no rows.
     """
-    import sqlalchemy as sa
-
     from data_adapters.prices import panel_from_frame
+
+    d = book.data
+    frame, where = fetch_frame(book, series)
+    return panel_from_frame(frame, format=d.format, series=series, date_column=d.date_column,
+                            series_column=d.series_column, price_column=d.price_column,
+                            max_gap_days=d.max_gap_days, source=where, rows_numbered=True)
+
+
+def fetch_frame(book, series: list[str]) -> tuple[pd.DataFrame, str]:
+    """The rows the book's query returns (not yet aligned), and how the source is named."""
+    import sqlalchemy as sa
 
     d = book.data
     text, key = _url_text(book)
@@ -180,9 +190,8 @@ def read_database(book, series: list[str]):
             if d.start or d.end else ""
         raise InputError(f"the query for {', '.join(series)} returned no rows{span}",
                          file=where, key="data.table")
-    return panel_from_frame(frame, format=d.format, series=series, date_column=d.date_column,
-                            series_column=d.series_column, price_column=d.price_column,
-                            max_gap_days=d.max_gap_days, source=where)
+    frame.index = pd.RangeIndex(1, len(frame) + 1)  # result rows, in date order
+    return frame, where
 
 
 def read_sqlite_file(path: Path, table: str, source: str) -> pd.DataFrame:

@@ -10,7 +10,6 @@ from importlib import resources
 from pathlib import Path
 
 import typer
-from rich.table import Table
 
 from .common import EXIT_NO_HEDGE, err, fail, guarded, out
 
@@ -79,23 +78,17 @@ def solve(
 
 @app.command()
 @guarded
-def check(book: Path = BookArg) -> None:
-    """Validate a book and its prices without solving."""
-    from optimizer.api import prepare
+def check(
+    book: Path = BookArg,
+    as_json: bool = typer.Option(False, "--json", help="Print one JSON object on stdout."),
+    strict: bool = typer.Option(False, "--strict", help="Data-quality warnings are errors."),
+    stale_days: int = typer.Option(5, help="Rows of unchanged price that make a stale run."),
+    jump_z: float = typer.Option(10.0, help="Robust z-score above which a move is a jump."),
+) -> None:
+    """Validate a book and report the quality of its price history, per series."""
+    from .check_cmd import run_check
 
-    prep = prepare(book)
-    b, p = prep.book, prep.panel
-    t = Table(title=f"Book '{b.book.name}' is valid", title_justify="left")
-    for c in ["series", "unit", "rows", "first date", "last date", "last price"]:
-        t.add_column(c, justify="right" if c in ("rows", "last price") else "left")
-    for s in p.prices.columns:
-        t.add_row(s, b.series[s].unit, str(len(p.prices)), str(p.first_date.date()),
-                  str(p.last_date.date()), f"{p.prices[s].iloc[-1]:,.4f}")
-    out.print(t)
-    out.print(f"{len(b.exposures)} exposures, {len(b.instruments)} instruments, "
-              f"{len(b.group_limits)} group limits; {p.dropped_rows} rows dropped by alignment; "
-              f"estimator {b.estimation.estimator}, window {b.estimation.window} rows, horizon "
-              f"{b.book.horizon_days} days")
+    run_check(book, as_json, strict, stale_days, jump_z)
 
 
 @app.command()
