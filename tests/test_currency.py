@@ -211,3 +211,22 @@ def test_rate_of_zero_is_refused_with_its_row(tmp_path):
         prepare(load_book(tmp_path / "book.toml"))
     assert info.value.row == 11 and info.value.column == "usd_per_eur"
     assert "exchange rate must be positive" in str(info.value)
+
+
+def test_direct_and_inverse_rate_quotes_give_the_same_hedge(tmp_path):
+    """EUR per USD or USD per EUR: the same rates written either way, the same hedge."""
+    raw = pd.read_csv(EUR_PLANT.parent / "prices.csv")
+    raw["eur_per_usd"] = 1.0 / raw.pop("usd_per_eur")
+    raw.to_csv(tmp_path / "prices.csv", index=False, float_format="%.17g")
+    data = read_toml(EUR_PLANT, "book file")
+    data["series"]["eur_per_usd"] = {"unit": "EUR/USD"}
+    del data["series"]["usd_per_eur"]
+    data["fx"] = {"USD": "eur_per_usd"}
+    data["instrument"].pop()  # the euro future lives on the USD-per-EUR quote
+    direct = solve_book(Book.from_dict(data, tmp_path, "book.toml"), "continuous")
+    base = read_toml(EUR_PLANT, "book file")
+    base["instrument"].pop()
+    inverse = solve_book(Book.from_dict(base, EUR_PLANT.parent, "book.toml"), "continuous")
+    np.testing.assert_allclose([i.target for i in direct.instruments],
+                               [i.target for i in inverse.instruments], rtol=1e-6)
+    assert direct.hedged_std == pytest.approx(inverse.hedged_std, rel=1e-6)

@@ -8,6 +8,8 @@ import numpy as np
 import pandas as pd
 import pytest
 import sqlalchemy as sa
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from data_adapters.book import Book
 from data_adapters.database import open_engine
@@ -165,3 +167,17 @@ def test_postgres_session_is_read_only(pg_loaded):
     with check.connect() as conn:
         assert conn.execute(sa.text("SELECT COUNT(*) FROM fx_closes")).scalar() == len(RAW)
     check.dispose()
+
+
+@settings(max_examples=60, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(name=st.text(min_size=1, max_size=40).filter(lambda t: t not in ("closes", "ticks")))
+def test_any_unknown_table_name_is_refused_and_nothing_runs(sqlite_file, name):
+    book = _book(sqlite_file.parent, url="sqlite:///prices.db", table=name)
+    with pytest.raises(InputError) as info:
+        load_prices(book)
+    assert info.value.key == "data.table"
+    with sqlite3.connect(sqlite_file) as con:
+        names = {r[0] for r in con.execute("SELECT name FROM sqlite_master")}
+        assert names == {"closes", "ticks"}
+        assert con.execute("SELECT COUNT(*) FROM closes").fetchone()[0] == len(RAW)

@@ -121,3 +121,21 @@ def test_holiday_file_moves_the_roll_and_check_counts_rolls(tmp_path):
     q = quality_report(load_book(path))
     rolls = {s.series: s.roll_gaps for s in q.series}
     assert rolls["ulsd_m1"] == 2 and rolls["rack_diesel"] is None
+
+
+def test_check_reads_a_database_book(tmp_path):
+    import sqlite3
+
+    raw = pd.read_csv(BOOK.parent / "prices.csv")
+    raw.loc[200:207, "gas_m1"] = raw.loc[200, "gas_m1"]
+    with sqlite3.connect(tmp_path / "prices.db") as con:
+        raw.melt(id_vars="date", var_name="series", value_name="price").to_sql("ticks", con)
+    text = BOOK.read_text().replace('prices = "prices.csv"\nformat = "wide"',
+                                    'url = "sqlite:///prices.db"\ntable = "ticks"\n'
+                                    'format = "long"')
+    (tmp_path / "book.toml").write_text(text)
+    res = runner.invoke(app, ["check", str(tmp_path / "book.toml"), "--json"])
+    assert res.exit_code == 0, res.output
+    out = json.loads(res.output)
+    assert out["valid"] and "ticks" in out["source"]
+    assert [(p["series"], p["kind"]) for p in out["problems"]] == [("gas_m1", "stale")]
