@@ -162,11 +162,16 @@ def _columns(book) -> tuple[set[str], set[str]]:
     return ({e.series for e in book.exposures}, {i.series for i in book.instruments})
 
 
-def _futures_pnl(pnl: np.ndarray, r: np.ndarray, anchor: float) -> np.ndarray:
-    """Levels whose differences are ``r_t · Δpnl_t``, ending at ``anchor``."""
-    step = np.concatenate([[0.0], np.diff(pnl) * r[1:]])
-    levels = np.cumsum(step)
-    return levels - levels[-1] + anchor
+def _pnl_levels(pnl: np.ndarray, held: np.ndarray, r: np.ndarray, *,
+                physical: bool) -> np.ndarray:
+    """Levels whose differences are the book-currency P&L of one unit held, ending at
+    ``held_T · r_T``: a future's ``r_t · Δpnl_t``; a physical position's value change adds
+    ``held_{t−1} · Δr_t`` (equal to ``Δ(P · r)`` for a plain series)."""
+    step = np.diff(pnl) * r[1:]
+    if physical:
+        step = step + held[:-1] * np.diff(r)
+    levels = np.cumsum(np.concatenate([[0.0], step]))
+    return levels - levels[-1] + held[-1] * r[-1]
 
 
 def to_book_currency(book, panel):
@@ -211,10 +216,9 @@ def to_book_currency(book, panel):
             fut = s + FUTURES_SUFFIX if s in exp_cols and s in ins_cols else s
             out = []
             if s in exp_cols:
-                out.append((s, p * r, h * r, _futures_pnl(q, r, h[-1] * r[-1])
-                            if panel.pnl is not None else p * r))
+                out.append((s, p * r, h * r, _pnl_levels(q, h, r, physical=True)))
             if s in ins_cols:
-                out.append((fut, p * r[-1], h * r, _futures_pnl(q, r, h[-1] * r[-1])))
+                out.append((fut, p * r[-1], h * r, _pnl_levels(q, h, r, physical=False)))
                 renamed[s] = fut
         for name, a, b, c in out:
             prices[name], held[name], pnl[name] = a, b, c

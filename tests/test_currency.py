@@ -230,3 +230,27 @@ def test_direct_and_inverse_rate_quotes_give_the_same_hedge(tmp_path):
     np.testing.assert_allclose([i.target for i in direct.instruments],
                                [i.target for i in inverse.instruments], rtol=1e-6)
     assert direct.hedged_std == pytest.approx(inverse.hedged_std, rel=1e-6)
+
+
+def test_backtest_realises_pnl_in_the_book_currency():
+    """Exposures: change of the EUR value; futures: each day's USD P&L at that day's rate."""
+    from optimizer.backtest import run_backtest
+
+    res = run_backtest(EUR_PLANT, step=100, strategies=["joint-continuous"])
+    raw = pd.read_csv(EUR_PLANT.parent / "prices.csv", index_col="date", parse_dates=True)
+    r = 1.0 / raw["usd_per_eur"]
+    value = -60_000 * raw["hub_gas"] - 8_000 * raw["feed_naphtha"] * r
+    want = value.loc[res.horizon_end].to_numpy() - value.loc[res.dates].to_numpy()
+    np.testing.assert_allclose(res.exposure_horizon.sum(axis=1), want, rtol=1e-9)
+    run = res.runs[0]
+    daily = {"GAS-F1": 720 * raw["gas_m1"].diff(),
+             "CRUDE-F1": 1000 * raw["crude_m1"].diff() * r,
+             "GASOIL-F1": 100 * raw["gasoil_m1"].diff() * r,
+             "EUR-FX-F1": 125_000 * raw["usd_per_eur"].diff() * r}
+    for j, ins in enumerate(daily):
+        cum = daily[ins].fillna(0.0).cumsum()
+        per = cum.loc[res.horizon_end].to_numpy() - cum.loc[res.dates].to_numpy()
+        np.testing.assert_allclose(run.horizon_leg[:, j], run.targets[:, j] * per, rtol=1e-9,
+                                   atol=1e-6)
+    with pytest.raises(InputError, match="prepare"):
+        run_backtest(EUR_PLANT, step=100, strategies=["unhedged"], prices=raw)
