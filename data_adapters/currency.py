@@ -37,8 +37,8 @@ import pandas as pd
 from data_adapters.errors import InputError
 from data_adapters.units import is_currency, parse_price_unit
 
-__all__ = ["FUTURES_SUFFIX", "RateSource", "check_currencies", "needed_series",
-           "rate_sources", "to_book_currency"]
+__all__ = ["FUTURES_SUFFIX", "RateSource", "book_currency_shocks", "check_currencies",
+           "needed_series", "rate_sources", "to_book_currency"]
 
 FUTURES_SUFFIX = "@futures"
 
@@ -260,3 +260,28 @@ def _notes(sources: dict[str, RateSource], k: str, renamed: dict[str, str]) -> l
         notes.append(f"series used by exposures and futures ({both}): the futures read "
                      f"'{FUTURES_SUFFIX}' columns")
     return notes
+
+
+def book_currency_shocks(book, pct: dict[str, float]) -> dict[str, float]:
+    """Percent moves of the series as quoted, as moves of the book's converted columns.
+
+    A shock to an exchange-rate series moves the book-currency value of every exposure priced
+    in that currency (``(1 + p)(1 + f) − 1`` with ``f`` the move of the rate in book currency
+    per foreign unit); futures move with their own price only (their P&L is converted at
+    today's rate). A series' shock also applies to its ``@futures`` column.
+    """
+    out = dict(pct)
+    for s in book.series_ids():
+        base = s.removesuffix(FUTURES_SUFFIX)
+        if s != base and base in pct:
+            out[s] = pct[base]
+    sources = rate_sources(book)
+    for s in {e.series for e in book.exposures}:
+        x = _currency_of(book.series[s].unit)
+        src = sources.get(x)
+        if src is None or not pct.get(src.series):
+            continue
+        q = 1.0 + float(pct[src.series]) / 100.0
+        fx = 1.0 / q if src.invert else q
+        out[s] = ((1.0 + float(pct.get(s, 0.0)) / 100.0) * fx - 1.0) * 100.0
+    return out

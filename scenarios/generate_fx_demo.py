@@ -179,6 +179,11 @@ name = "limits-halved"
 limit_scale = 0.5
 
 [[scenario]]
+name = "euro-falls"
+shock_pct = {{ usd_per_eur = -8 }}
+note = "the dollar feedstock costs more in euros; the euro future gains"
+
+[[scenario]]
 name = "feedstock-spike"
 shock_pct = {{ feed_naphtha = 25, crude_m1 = 20, gasoil_m1 = 22 }}
 """

@@ -49,6 +49,14 @@ def test_sweep_runs_and_the_currency_future_matters(fx_book):
     out = json.loads(res.output)
     rows = {r["name"]: r for r in out["scenarios"]}
     assert rows["no-currency-future"]["hedged_std"] > rows["base"]["hedged_std"]
+    # the euro falls 8 %: the dollar feedstock costs 1/0.92 − 1 more in euros, and each short
+    # euro future gains 8 % of 125,000 EUR
+    raw = pd.read_csv(fx_book.parent / "prices.csv")
+    feed_eur = 8_000 * raw["feed_naphtha"].iloc[-1] / raw["usd_per_eur"].iloc[-1]
+    stress = rows["euro-falls"]["stress"]
+    assert stress["unhedged"] == pytest.approx(-feed_eur * (1 / 0.92 - 1), rel=1e-9)
+    fx = rows["euro-falls"]["contracts"]["EUR-FX-F1"]
+    assert fx < 0 and stress["futures"] == pytest.approx(fx * 125_000 * -0.08, rel=1e-9)
 
 
 def test_backtest_runs_in_euros(fx_book):
