@@ -91,7 +91,7 @@ class DataSpec(_Model):
     series_column: str = Field("series", min_length=1)
     price_column: str = Field("price", min_length=1)
     max_gap_days: int = Field(7, ge=1)
-    table: str = Field("prices", min_length=1)  # table name when prices is a SQLite database
+    table: str = Field("prices", min_length=1)  # table in a SQLite file or the url database
     roll: RollSpec | None = None
 
     @field_validator("format")

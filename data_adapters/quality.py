@@ -168,6 +168,9 @@ def _one(book, name: str, col: pd.Series, others: pd.DataFrame, settings: dict,
         problems.append(Problem(name, "jump", f"move of {moves[i]:+.4g} on {_day(dates[i + 1])} "
                                 f"(robust z {z[i]:.0f} > {settings['jump_z']:g})",
                                 _day(dates[i + 1])))
+    if len(own) < book.estimation.window:
+        problems.append(Problem(name, "short history", f"{len(own)} prices for a window of "
+                                f"{book.estimation.window} rows"))
     closed = closing_days(book, dates[0], dates[-1]).astype("datetime64[ns]")
     off = int(np.isin(dates.to_numpy(), closed).sum() + (dates.day_of_week >= 5).sum())
     if off:
