@@ -254,3 +254,12 @@ def test_backtest_realises_pnl_in_the_book_currency():
                                    atol=1e-6)
     with pytest.raises(InputError, match="prepare"):
         run_backtest(EUR_PLANT, step=100, strategies=["unhedged"], prices=raw)
+
+
+def test_rate_series_absent_from_the_prices_is_named(tmp_path):
+    raw = pd.read_csv(EUR_PLANT.parent / "prices.csv").drop(columns="usd_per_eur")
+    raw.to_csv(tmp_path / "prices.csv", index=False)
+    (tmp_path / "book.toml").write_text(EUR_PLANT.read_text())
+    with pytest.raises(InputError) as info:
+        prepare(tmp_path / "book.toml")
+    assert info.value.column == "usd_per_eur" and "missing series" in str(info.value)
