@@ -17,7 +17,6 @@ from data_adapters.prices import load_prices
 from data_adapters.quality import _robust_z, quality_report
 from optimizer.cli.app import app
 from scenarios import demo_book_path, eur_plant_book_path
-from tests.test_rolls import _write_book
 
 runner = CliRunner()
 BOOK = eur_plant_book_path()
@@ -104,8 +103,65 @@ def test_market_calendar_closes_on_exchange_holidays(tmp_path):
     assert any(p.kind == "calendar" for p in q.problems)  # the invented data trades every weekday
 
 
+ROLLED_BOOK = """\
+[book]
+name = "Rolled"
+horizon_days = 2
+
+[data]
+prices = "contracts.csv"
+format = "contracts"
+
+[data.roll]
+expiries = "expiries.csv"
+roll_days = 2
+
+[estimation]
+window = 20
+
+[series.ulsd_m1]
+unit = "USD/gal"
+
+[series.rack_diesel]
+unit = "USD/gal"
+
+[[exposure]]
+id = "fleet"
+series = "rack_diesel"
+quantity = -500000.0
+unit = "gal"
+
+[[instrument]]
+id = "ULSD-M1"
+series = "ulsd_m1"
+contract_size = 42000
+unit = "gal"
+"""
+
+
+def _write_rolled_book(folder):
+    """Invented contracts ULSD-2026-02..05 (last trades on month ends), a rack price beside."""
+    expiries = pd.DataFrame({
+        "contract": ["ULSD-2026-02", "ULSD-2026-03", "ULSD-2026-04", "ULSD-2026-05"],
+        "last_trade": ["2026-01-30", "2026-02-27", "2026-03-31", "2026-04-30"],
+        "product": ["ulsd"] * 4})
+    dates = pd.bdate_range("2026-01-19", "2026-03-06")
+    rng = np.random.default_rng(3)
+    rows = [(d.strftime("%Y-%m-%d"), name, round(float(v), 4))
+            for j, name in enumerate(expiries["contract"])
+            for d, v in zip(dates, 2.5 + 0.15 * j + np.cumsum(rng.normal(0, 0.03, len(dates))),
+                            strict=True)]
+    rows += [(d.strftime("%Y-%m-%d"), "rack_diesel", round(2.6 + 0.01 * i, 4))
+             for i, d in enumerate(dates)]
+    pd.DataFrame(rows, columns=["date", "contract", "price"]).to_csv(folder / "contracts.csv",
+                                                                     index=False)
+    expiries.to_csv(folder / "expiries.csv", index=False)
+    (folder / "book.toml").write_text(ROLLED_BOOK)
+    return folder / "book.toml"
+
+
 def test_holiday_file_moves_the_roll_and_check_counts_rolls(tmp_path):
-    path = _write_book(tmp_path)
+    path = _write_rolled_book(tmp_path)
     base = load_prices(load_book(path))
     pd.DataFrame({"date": ["2026-01-29"]}).to_csv(tmp_path / "holidays.csv", index=False)
     text = path.read_text().replace('format = "contracts"',
