@@ -16,9 +16,9 @@ from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, field_validator
 
-from data_adapters.errors import InputError, from_validation_error
-from data_adapters.toml_file import read_toml
-from data_adapters.units import parse_price_unit, units_in_price_unit
+from basiswise.data_adapters.errors import InputError, from_validation_error
+from basiswise.data_adapters.toml_file import read_toml
+from basiswise.data_adapters.units import parse_price_unit, units_in_price_unit
 
 __all__ = [
     "Book",
@@ -398,7 +398,7 @@ def _check(book: Book, source: str) -> None:
                 key=f"{where}.min_position",
             )
 
-    from data_adapters.currency import check_currencies
+    from basiswise.data_adapters.currency import check_currencies
 
     check_currencies(book, currency, source)
 

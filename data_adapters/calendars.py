@@ -17,7 +17,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from data_adapters.errors import InputError
+from basiswise.data_adapters.errors import InputError
 
 __all__ = ["closing_days", "business_days", "market_calendars"]
 
@@ -40,7 +40,7 @@ def _market_days(code: str, years: range, source: str | None) -> set:
 
 
 def _file_days(path: Path, source: str | None) -> set:
-    from data_adapters.prices import _parse_dates, _read_table, _require_columns
+    from basiswise.data_adapters.prices import _parse_dates, _read_table, _require_columns
 
     frame = _read_table(path, str(path))
     _require_columns(frame, ["date"], "holiday date", str(path))

@@ -34,8 +34,8 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from data_adapters.errors import InputError
-from data_adapters.units import is_currency, parse_price_unit
+from basiswise.data_adapters.errors import InputError
+from basiswise.data_adapters.units import is_currency, parse_price_unit
 
 __all__ = ["FUTURES_SUFFIX", "RateSource", "book_currency_shocks", "check_currencies",
            "needed_series", "rate_sources", "to_book_currency"]
@@ -190,7 +190,7 @@ def to_book_currency(book, panel):
         The book (instrument series renamed where a series serves both sides, margins and
         costs converted), the panel over ``book.series_ids()`` and one note per currency.
     """
-    from data_adapters.prices import PricePanel
+    from basiswise.data_adapters.prices import PricePanel
 
     sources = rate_sources(book)
     if not sources:

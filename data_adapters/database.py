@@ -22,7 +22,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from data_adapters.errors import InputError
+from basiswise.data_adapters.errors import InputError
 
 __all__ = ["database_source", "fetch_frame", "open_engine", "read_database",
            "read_sqlite_file"]
@@ -154,7 +154,7 @@ def read_database(book, series: list[str]):
     asked for. Raises InputError naming the key, table or column at fault: unreachable server,
     missing table or column, no rows.
     """
-    from data_adapters.prices import panel_from_frame
+    from basiswise.data_adapters.prices import panel_from_frame
 
     d = book.data
     frame, where = fetch_frame(book, series)

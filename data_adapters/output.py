@@ -15,7 +15,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from data_adapters.errors import InputError
+from basiswise.data_adapters.errors import InputError
 
 __all__ = ["atomic_path", "atomic_write", "write_csv_atomic", "write_text_atomic"]
 

@@ -29,7 +29,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from data_adapters.errors import InputError
+from basiswise.data_adapters.errors import InputError
 
 __all__ = ["MISSING_MARKERS", "PricePanel", "check_positive", "load_prices", "panel_from_frame",
            "read_prices"]
@@ -127,7 +127,7 @@ def _read_table(path: Path, source: str, table: str = "prices") -> pd.DataFrame:
                 skip_blank_lines=False,  # keep line numbers true; blank lines dropped below
             )
         elif suffix in (".sqlite", ".db"):
-            from data_adapters.database import read_sqlite_file
+            from basiswise.data_adapters.database import read_sqlite_file
 
             frame = read_sqlite_file(path, table, source)
         elif suffix == ".parquet":
@@ -431,13 +431,13 @@ def load_prices(book) -> PricePanel:
     """Read the prices of a :class:`~data_adapters.book.Book` (its ``[data]`` and series)."""
     d = book.data
     if d.format == "contracts":
-        from data_adapters.rolls import load_contract_prices  # rolls imports this module
+        from basiswise.data_adapters.rolls import load_contract_prices  # rolls imports this module
 
         return load_contract_prices(book)
-    from data_adapters.currency import needed_series
+    from basiswise.data_adapters.currency import needed_series
 
     if d.prices is None:
-        from data_adapters.database import read_database
+        from basiswise.data_adapters.database import read_database
 
         return read_database(book, needed_series(book))
     source_path = book.prices_path

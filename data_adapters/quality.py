@@ -89,11 +89,11 @@ class QualityReport:
 
 def raw_prices(book, series: list[str]) -> tuple[pd.DataFrame, str]:
     """Prices of ``series`` as the source has them (one row per date, NaN where none)."""
-    from data_adapters import prices as px
+    from basiswise.data_adapters import prices as px
 
     d = book.data
     if d.prices is None:
-        from data_adapters.database import fetch_frame
+        from basiswise.data_adapters.database import fetch_frame
 
         frame, source = fetch_frame(book, series)
     else:
@@ -139,7 +139,7 @@ def _day(ts) -> str:
 
 def _one(book, name: str, col: pd.Series, others: pd.DataFrame, settings: dict,
          problems: list[Problem]) -> SeriesQuality:
-    from data_adapters.calendars import business_days, closing_days
+    from basiswise.data_adapters.calendars import business_days, closing_days
 
     own = col.dropna()
     dates, values = own.index, own.to_numpy(dtype=float)
@@ -223,8 +223,8 @@ def quality_report(book, *, stale_days: int = 5, jump_z: float = 10.0) -> Qualit
     InputError
         When the source cannot be read at all (missing file, table, column).
     """
-    from data_adapters.currency import needed_series
-    from data_adapters.prices import load_prices
+    from basiswise.data_adapters.currency import needed_series
+    from basiswise.data_adapters.prices import load_prices
 
     settings = {"stale_days": int(stale_days), "jump_z": float(jump_z)}
     names = needed_series(book)

@@ -18,8 +18,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from data_adapters.errors import InputError
-from data_adapters.prices import (
+from basiswise.data_adapters.errors import InputError
+from basiswise.data_adapters.prices import (
     PricePanel,
     _check_gaps,
     _parse_dates,
@@ -358,7 +358,7 @@ def load_contract_prices(book) -> PricePanel:
     frame = _read_table(book.prices_path, prices_file, d.table)
     _require_columns(frame, [d.date_column, roll.contract_column, d.price_column],
                      "contract price", prices_file)
-    from data_adapters.currency import needed_series
+    from basiswise.data_adapters.currency import needed_series
 
     wanted = needed_series(book)
     months: dict[str, int] = {}
@@ -413,7 +413,7 @@ def _closing_days(book, expiries: pd.DataFrame):
     """Closing days of the book's calendar over the expiries' span (None: Mon–Fri only)."""
     if not (book.data.calendar or book.data.holidays):
         return None
-    from data_adapters.calendars import closing_days
+    from basiswise.data_adapters.calendars import closing_days
 
     last = _parse_dates(expiries["last_trade"], "last_trade", str(book.expiries_path))
     return closing_days(book, last.min() - pd.Timedelta(days=60), last.max())

@@ -1,4 +1,4 @@
-"""The demo book and its invented price history (see :mod:`scenarios.generate_demo`)."""
+"""The demo book and its invented price history (see :mod:`basiswise.scenarios.generate_demo`)."""
 
 from __future__ import annotations
 
@@ -13,7 +13,7 @@ def demo_book_path() -> Path:
     Returns
     -------
     pathlib.Path
-        Absolute path; regenerate the files with ``python -m scenarios.generate_demo``.
+        Absolute path; regenerate the files with ``python -m basiswise.scenarios.generate_demo``.
     """
     return Path(__file__).resolve().parent / "demo" / "book.toml"
 
@@ -21,6 +21,6 @@ def demo_book_path() -> Path:
 def eur_plant_book_path() -> Path:
     """Path of the two-currency example book ``scenarios/eur_plant/book.toml``.
 
-    Regenerate its files with ``python -m scenarios.generate_fx_demo``.
+    Regenerate its files with ``python -m basiswise.scenarios.generate_fx_demo``.
     """
     return Path(__file__).resolve().parent / "eur_plant" / "book.toml"

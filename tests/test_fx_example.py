@@ -9,9 +9,9 @@ import pandas as pd
 import pytest
 from typer.testing import CliRunner
 
-from optimizer.cli.app import app
-from scenarios import eur_plant_book_path
-from scenarios.generate_fx_demo import generate_prices
+from basiswise.cli.app import app
+from basiswise.scenarios import eur_plant_book_path
+from basiswise.scenarios.generate_fx_demo import generate_prices
 
 runner = CliRunner()
 
