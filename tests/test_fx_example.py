@@ -39,7 +39,7 @@ def test_solve_json_is_in_euros_and_sells_euro_futures(fx_book, tmp_path):
     assert out["currency"] == "EUR" and out["status"] == "certified"
     sides = {i["id"]: i["side"] for i in out["instruments"]}
     assert sides["EUR-FX-F1"] == "SELL" and sides["GAS-F1"] == "BUY"
-    assert "notional_EUR" in pd.read_csv(trades).columns
+    assert "trade_notional_EUR" in pd.read_csv(trades).columns
 
 
 def test_sweep_runs_and_the_currency_future_matters(fx_book):

@@ -11,14 +11,29 @@ from pathlib import Path
 
 import typer
 
-from .common import EXIT_NO_HEDGE, err, fail, guarded, out
+from .common import EXIT_NO_HEDGE, METHODS, BookArg, check_ranges, err, fail, guarded, out
+from .render import text
 
-app = typer.Typer(add_completion=False, no_args_is_help=True,
+app = typer.Typer(add_completion=False, no_args_is_help=True, rich_markup_mode=None,
                   help="Joint minimum-variance cross hedges in whole futures contracts.")
 
-BookArg = typer.Argument(..., help="Book file (TOML).", show_default=False, metavar="BOOK")
 MethodOpt = typer.Option("exact", "--method", "-m",
                          help="exact (whole contracts, proven) | round | continuous")
+JsonOpt = typer.Option(False, "--json", help="Print one JSON object on stdout.")
+EstimatorOpt = typer.Option(None, help="Override [estimation].estimator.")
+WindowOpt = typer.Option(None, help="Override [estimation].window (rows, at least 2).")
+HorizonOpt = typer.Option(None, help="Override [book].horizon_days (at least 1).")
+ChangesOpt = typer.Option(None, help="Override [estimation].changes.")
+SamplingOpt = typer.Option(None, help="Override [estimation].sampling.")
+TimeLimitOpt = typer.Option(30.0, help="Seconds allowed for the whole-contract search (> 0).")
+
+
+def _door(method: str, time_limit: float, window: int | None, horizon: int | None) -> None:
+    """Option values refused before any file is read."""
+    if method not in METHODS:
+        fail(f"unknown method '{method}'; valid: {', '.join(METHODS)}")
+    check_ranges(time_limit=(time_limit, 0, True), window=(window, 2, False),
+                 horizon=(horizon, 1, False))
 
 
 def _write_trades(report, path: Path) -> None:
@@ -32,8 +47,6 @@ def _solve_and_show(book, method, trades, as_json, time_limit, **overrides) -> N
 
     from .tables import print_report
 
-    if method not in ("exact", "round", "continuous"):
-        fail(f"unknown method '{method}'; valid: exact, round, continuous")
     if trades is not None and method == "continuous":
         fail("--trades needs whole contracts: use --method exact or round")
     busy = (err.status("estimating and solving the hedge…") if err.is_terminal
@@ -54,7 +67,7 @@ def _solve_and_show(book, method, trades, as_json, time_limit, **overrides) -> N
     else:
         print_report(report, out)
         if trades is not None:
-            out.print(f"trade list written to [bold]{trades}[/]")
+            out.print(text(f"trade list written to {trades}"))
 
 
 @app.command()
@@ -62,16 +75,17 @@ def _solve_and_show(book, method, trades, as_json, time_limit, **overrides) -> N
 def solve(
     book: Path = BookArg,
     method: str = MethodOpt,
-    as_json: bool = typer.Option(False, "--json", help="Print one JSON object on stdout."),
+    as_json: bool = JsonOpt,
     trades: Path | None = typer.Option(None, "--trades", help="Write the trade list (CSV)."),
-    estimator: str | None = typer.Option(None, help="Override [estimation].estimator."),
-    window: int | None = typer.Option(None, help="Override [estimation].window (rows)."),
-    horizon: int | None = typer.Option(None, help="Override [book].horizon_days."),
-    changes: str | None = typer.Option(None, help="Override [estimation].changes."),
-    sampling: str | None = typer.Option(None, help="Override [estimation].sampling."),
-    time_limit: float = typer.Option(30.0, help="Seconds allowed for the whole-contract search."),
+    estimator: str | None = EstimatorOpt,
+    window: int | None = WindowOpt,
+    horizon: int | None = HorizonOpt,
+    changes: str | None = ChangesOpt,
+    sampling: str | None = SamplingOpt,
+    time_limit: float = TimeLimitOpt,
 ) -> None:
     """Solve the book's hedge and show it; optionally write the trade list."""
+    _door(method, time_limit, window, horizon)
     _solve_and_show(book, method, trades, as_json, time_limit, estimator=estimator,
                     window=window, horizon_days=horizon, changes=changes, sampling=sampling)
 
@@ -80,15 +94,17 @@ def solve(
 @guarded
 def check(
     book: Path = BookArg,
-    as_json: bool = typer.Option(False, "--json", help="Print one JSON object on stdout."),
-    strict: bool = typer.Option(False, "--strict", help="Data-quality warnings are errors."),
+    as_json: bool = JsonOpt,
+    strict: bool = typer.Option(False, "--strict", help="Warnings and conflicts are errors."),
     stale_days: int = typer.Option(5, help="Rows of unchanged price that make a stale run."),
     jump_z: float = typer.Option(10.0, help="Robust z-score above which a move is a jump."),
 ) -> None:
-    """Validate a book and report the quality of its price history, per series."""
+    """Report the quality of the book's price history per series, validate the book, and warn
+    about short history and limits that cannot hold together."""
     from .check_cmd import run_check
 
-    run_check(book, as_json, strict, stale_days, jump_z)
+    check_ranges(stale_days=(stale_days, 2, False), jump_z=(jump_z, 0, True))
+    run_check(book, out, as_json=as_json, strict=strict, stale_days=stale_days, jump_z=jump_z)
 
 
 @app.command()
@@ -97,21 +113,30 @@ def report(
     book: Path = BookArg,
     output: Path = typer.Option(..., "--out", "-o", help="Markdown file to write."),
     method: str = MethodOpt,
-    time_limit: float = typer.Option(30.0, help="Seconds allowed for the whole-contract search."),
+    estimator: str | None = EstimatorOpt,
+    window: int | None = WindowOpt,
+    horizon: int | None = HorizonOpt,
+    changes: str | None = ChangesOpt,
+    sampling: str | None = SamplingOpt,
+    time_limit: float = TimeLimitOpt,
 ) -> None:
-    """Solve the book and write the hedge report (Markdown) for the hedge file."""
+    """Solve the book and write the hedge report (Markdown) for the hedge file; takes the same
+    overrides as solve."""
     from basiswise.data_adapters.output import write_text_atomic
     from basiswise.optimizer.pipeline import solve_book
     from basiswise.optimizer.results.markdown import to_markdown
 
-    if method not in ("exact", "round", "continuous"):
-        fail(f"unknown method '{method}'; valid: exact, round, continuous")
-    rep = solve_book(book, method, time_limit=time_limit)
+    _door(method, time_limit, window, horizon)
+    rep = solve_book(book, method, time_limit=time_limit, estimator=estimator, window=window,
+                     horizon_days=horizon, changes=changes, sampling=sampling)
     if not rep.ok:
         fail(f"{book}: no feasible hedge ({rep.status}); no report written", EXIT_NO_HEDGE)
     write_text_atomic(to_markdown(rep, source=str(book)), output)
-    out.print(f"hedge report written to [bold]{output}[/] (hedged std "
-              f"{rep.hedged_std:,.0f} {rep.currency} over {rep.horizon_days} days)")
+    out.print(text(f"hedge report written to {output} (hedged std {rep.hedged_std:,.0f} "
+                   f"{rep.currency} over {rep.horizon_days} days)"))
+
+
+DEMO_FILES = ("book.toml", "prices.csv", "limit_cuts.toml")
 
 
 @app.command()
@@ -120,16 +145,23 @@ def demo(
     folder: Path = typer.Option(Path("basiswise-demo"), "--out",
                                 help="Folder for the demo book, prices and trade list."),
     method: str = MethodOpt,
+    force: bool = typer.Option(False, "--force",
+                               help="Overwrite files in the folder that differ from the demo."),
 ) -> None:
     """Write the invented demo book into a folder, solve it and write its trade list."""
-    folder.mkdir(parents=True, exist_ok=True)
+    _door(method, 30.0, None, None)
     src = resources.files("basiswise.scenarios") / "demo"
-    for name in ("book.toml", "prices.csv", "limit_cuts.toml"):
-        item = src / name
-        if item.is_file():
-            with resources.as_file(item) as f:
-                shutil.copyfile(f, folder / name)
-    out.print(f"demo book and invented prices written to [bold]{folder}[/]")
+    items = [(name, src / name) for name in DEMO_FILES if (src / name).is_file()]
+    clash = [name for name, item in items
+             if (folder / name).exists() and (folder / name).read_bytes() != item.read_bytes()]
+    if clash and not force:
+        fail(f"{folder}: {', '.join(clash)} already there and different from the demo; "
+             "nothing written (use --force to overwrite, or another --out folder)")
+    folder.mkdir(parents=True, exist_ok=True)
+    for name, item in items:
+        with resources.as_file(item) as f:
+            shutil.copyfile(f, folder / name)
+    out.print(text(f"demo book and invented prices written to {folder}"))
     _solve_and_show(folder / "book.toml", method, folder / "trades.csv", False, 30.0)
 
 

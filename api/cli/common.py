@@ -6,11 +6,12 @@ import functools
 
 import typer
 from rich.console import Console
+from rich.text import Text
 
 from basiswise.data_adapters.errors import InputError
 
-# piped output gets a width that fits the widest table instead of rich's default 80
-out = Console() if Console().is_terminal else Console(width=130)
+# width: COLUMNS when set, else the terminal's, else 80; tables split to fit (render.fit)
+out = Console()
 err = Console(stderr=True, soft_wrap=True)  # an error stays on one line
 
 EXIT_INPUT = 2
@@ -19,7 +20,7 @@ EXIT_NO_HEDGE = 3
 
 def fail(message: str, code: int = EXIT_INPUT) -> None:
     """Print one clear error line on stderr and exit non-zero."""
-    err.print(f"[bold red]error:[/] {message}", highlight=False)
+    err.print(Text.assemble(("error:", "bold red"), " ", str(message)), highlight=False)
     raise typer.Exit(code)
 
 
@@ -34,3 +35,28 @@ def guarded(fn):
             fail(str(exc))
 
     return wrapper
+
+
+# one spelling for the options every command shares
+BookArg = typer.Argument(..., help="Book file (TOML).", show_default=False, metavar="BOOK")
+METHODS = ("exact", "round", "continuous")
+
+
+def workers_option(default: int, help: str):
+    """``--workers/-w``, the same on every command that runs work in parallel."""
+    return typer.Option(default, "--workers", "-w", help=help)
+
+
+def check_ranges(**values) -> None:
+    """Refuse out-of-range option values at the door: ``name=(value, low, open_low)``.
+
+    ``open_low`` True means the value must be above ``low``, False at least ``low``; ``None``
+    values (option not given) pass.
+    """
+    for name, (value, low, open_low) in values.items():
+        if value is None:
+            continue
+        flag = "--" + name.replace("_", "-")
+        if (value <= low) if open_low else (value < low):
+            need = f"above {low:g}" if open_low else f"at least {low:g}"
+            fail(f"{flag} must be {need}, got {value:g}")

@@ -39,11 +39,18 @@ def _break(frame: pd.DataFrame) -> pd.DataFrame:
 
 
 @pytest.mark.parametrize("book", [demo_book_path(), BOOK])
-def test_check_on_a_shipped_book_prints_the_table_and_no_warning(book):
-    res = runner.invoke(app, ["check", str(book), "--strict"])
+def test_check_on_a_shipped_book_prints_the_table_and_no_data_warning(book):
+    res = runner.invoke(app, ["check", str(book)], env={"COLUMNS": "200"})
     assert res.exit_code == 0, res.output
     assert "Price data quality" in res.output and "is valid" in res.output
-    assert "warning" not in res.output
+    assert "data warning" not in res.output
+
+
+def test_check_strict_passes_the_example_and_fails_on_a_short_history_warning():
+    res = runner.invoke(app, ["check", str(BOOK), "--strict"])
+    assert res.exit_code == 0, res.output
+    res = runner.invoke(app, ["check", str(demo_book_path()), "--strict"])
+    assert res.exit_code == 2 and "--strict" in res.stderr  # the demo warns: 20 series, 24 moves
 
 
 def test_check_json_on_the_example():
@@ -69,12 +76,13 @@ def test_broken_copy_names_each_problem(tmp_path):
     row = {s.series: s for s in q.series}
     assert row["gasoil_m1"].missing == 4 and row["hub_gas"].missing == 3
     assert row["hub_gas"].unmatched == 1                     # the date gasoil has no price
-    res = runner.invoke(app, ["check", str(book)])
+    res = runner.invoke(app, ["check", str(book)], env={"COLUMNS": "200"})
     assert res.exit_code == 0, res.output
-    for words in ("stale", "jump", "missing", "crude_m1", "hub_gas", "gasoil_m1"):
+    for words in ("data warning: crude_m1: stale", "data warning: hub_gas: jump",
+                  "data warning: gasoil_m1: missing"):
         assert words in res.output
     res = runner.invoke(app, ["check", str(book), "--strict"])
-    assert res.exit_code == 2 and "data-quality warnings" in res.stderr
+    assert res.exit_code == 2 and "--strict" in res.stderr
 
 
 def test_a_gap_beyond_max_gap_days_is_shown_then_refused(tmp_path):
