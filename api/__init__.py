@@ -33,7 +33,8 @@ _WHERE = {
     **dict.fromkeys(["SweepResult", "run_sweep"], "optimizer.sweeps.runner"),
     **dict.fromkeys(["BacktestResult", "run_backtest"], "optimizer.backtest.engine"),
     "run_backtest_parallel": "optimizer.backtest.parallel",
-    "demo_book_path": "scenarios",
+    **dict.fromkeys(["demo_book_path", "eur_plant_book_path"], "scenarios"),
+    "quality_report": "data_adapters.quality",
 }
 
 

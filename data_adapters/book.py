@@ -77,15 +77,28 @@ _FORMATS = PRICE_FORMATS
 
 
 class DataSpec(_Model):
-    """``[data]``: where the price history is and how it is laid out."""
+    """``[data]``: where the price history is and how it is laid out.
 
-    prices: str = Field(min_length=1)
+    ``prices`` names a file; ``url`` (or ``url_env``, the environment variable holding it, so a
+    password stays out of the book) a database read through SQLAlchemy, e.g.
+    ``sqlite:///prices.db`` (path relative to the book) or ``postgresql+psycopg://host/db``;
+    ``table`` (and ``db_schema``) name its table, ``start``/``end`` restrict the dates read.
+    """
+
+    prices: str | None = Field(None, min_length=1)
+    url: str | None = Field(None, min_length=1)
+    url_env: str | None = Field(None, min_length=1)
+    db_schema: str | None = Field(None, min_length=1)
+    start: date | None = None
+    end: date | None = None
+    calendar: str | None = Field(None, min_length=1)  # market calendar (data_adapters.calendars)
+    holidays: str | None = Field(None, min_length=1)  # or a file of closing days
     format: str = "wide"
     date_column: str = Field("date", min_length=1)
     series_column: str = Field("series", min_length=1)
     price_column: str = Field("price", min_length=1)
     max_gap_days: int = Field(7, ge=1)
-    table: str = Field("prices", min_length=1)  # table name when prices is a SQLite database
+    table: str = Field("prices", min_length=1)  # table in a SQLite file or the url database
     roll: RollSpec | None = None
 
     @field_validator("format")
@@ -141,6 +154,7 @@ class Instrument(_Model):
     execution_days: float = Field(1.0, gt=0.0)
     margin: float = Field(0.0, ge=0.0)
     cost_per_contract: float = Field(0.0, ge=0.0)
+    amount_currency: str | None = Field(None, pattern=r"^[A-Z]{3}$")  # of margin and costs
     contract_month: str | None = Field(None, pattern=r"^\d{4}-(0[1-9]|1[0-2])$")
     # trading-cost model (optimizer.problem.costs): quoted bid-ask spread in the series' price unit,
     # or in ticks with the currency value of one tick per contract; square-root impact coefficient
@@ -186,6 +200,7 @@ class Constraints(_Model):
 
 _PATTERN_WORDS = {
     "currency": "must be a 3-letter upper-case currency code such as 'USD'",
+    "amount_currency": "must be a 3-letter upper-case currency code such as 'USD'",
     "contract_month": "must be a contract month written YYYY-MM, e.g. '2027-01'",
 }
 _ID_TABLES = ("exposure", "instrument", "group_limit")
@@ -215,6 +230,7 @@ class Book(_Model):
     group_limits: list[GroupLimit] = Field(default_factory=list, alias="group_limit")
     constraints: Constraints = Constraints()
     costs: CostSpec = CostSpec()
+    fx: dict[str, str] = Field(default_factory=dict)  # currency -> exchange-rate series
 
     _path: Path = PrivateAttr(default=Path("book.toml"))
     _source: str = PrivateAttr(default="book.toml")
@@ -236,7 +252,9 @@ class Book(_Model):
 
     @property
     def prices_path(self) -> Path:
-        """The price history file, resolved against the book's folder."""
+        """The price history file (or database named by ``url``), resolved against the folder."""
+        if self.data.prices is None:
+            return self.folder / "database"
         return self.folder / self.data.prices
 
     @property
@@ -352,16 +370,10 @@ def _check(book: Book, source: str) -> None:
             file=source,
             key="data.roll",
         )
+    _check_source(book, source)
     units: dict[str, str] = {}
     for name, spec in book.series.items():
-        key = f"series.{name}.unit"
-        cur, _ = parse_price_unit(spec.unit, key=key, file=source)
-        if cur != currency:
-            raise InputError(
-                f"price unit {spec.unit!r} is in {cur} but the book currency is {currency}",
-                file=source,
-                key=key,
-            )
+        parse_price_unit(spec.unit, key=f"series.{name}.unit", file=source)
         units[name] = spec.unit
     if not book.exposures:
         raise InputError("the book has no [[exposure]] entries", file=source, key="exposure")
@@ -413,6 +425,10 @@ def _check(book: Book, source: str) -> None:
 
     check_costs(book, source)
 
+    from basiswise.data_adapters.currency import check_currencies
+
+    check_currencies(book, currency, source)
+
     for group in book.group_limits:
         where = f"group_limit {group.id!r}"
         seen: set[str] = set()
@@ -423,3 +439,20 @@ def _check(book: Book, source: str) -> None:
             if inst_id in seen:
                 raise InputError(f"{inst_id!r} is listed twice", file=source, key=key)
             seen.add(inst_id)
+
+
+def _check_source(book: Book, source: str) -> None:
+    """Exactly one of ``[data]`` prices, url, url_env; dates in order."""
+    d = book.data
+    given = [k for k in ("prices", "url", "url_env") if getattr(d, k) is not None]
+    if len(given) != 1:
+        what = "required key is missing" if not given else f"found {', '.join(given)}"
+        raise InputError(
+            f"{what}: give exactly one of prices (a file), url (a database URL) or url_env "
+            "(the environment variable holding the URL)", file=source, key="data.prices",
+        )
+    if d.start is not None and d.end is not None and d.start > d.end:
+        raise InputError(f"start {d.start} is after end {d.end}", file=source, key="data.start")
+    if d.format == "contracts" and d.prices is None:
+        raise InputError("format = 'contracts' reads a file: give prices", file=source,
+                         key="data.url")

@@ -31,7 +31,8 @@ import pandas as pd
 
 from basiswise.data_adapters.errors import InputError
 
-__all__ = ["MISSING_MARKERS", "PricePanel", "check_positive", "load_prices", "read_prices"]
+__all__ = ["MISSING_MARKERS", "PricePanel", "check_positive", "load_prices", "panel_from_frame",
+           "read_prices"]
 
 #: Cell texts read as "no price that day" (compared after stripping spaces).
 MISSING_MARKERS = frozenset({"", "NA", "N/A", "NaN", "nan", "null", "NULL", "#N/A", "-"})
@@ -104,21 +105,6 @@ class PricePanel:
 # --------------------------------------------------------------------------- readers
 
 
-def _read_sqlite(path: Path, table: str, source: str) -> pd.DataFrame:
-    """All rows of ``table`` in a SQLite database, as text (parsed like a CSV afterwards)."""
-    import sqlite3
-
-    uri = f"file:{path.resolve()}?mode=ro"  # read only: a price source is never written
-    with sqlite3.connect(uri, uri=True) as con:
-        names = {r[0] for r in con.execute("SELECT name FROM sqlite_master WHERE type='table'")}
-        if table not in names:
-            raise InputError(f"no table {table!r} in the database (tables: "
-                             f"{', '.join(sorted(names)) or 'none'})", file=source,
-                             key="data.table")
-        frame = pd.read_sql_query(f'SELECT * FROM "{table}"', con)
-    return frame.astype(object).where(frame.notna(), "").astype(str)
-
-
 def _read_table(path: Path, source: str, table: str = "prices") -> pd.DataFrame:
     suffix = path.suffix.lower()
     if suffix not in _SUFFIXES:
@@ -141,7 +127,9 @@ def _read_table(path: Path, source: str, table: str = "prices") -> pd.DataFrame:
                 skip_blank_lines=False,  # keep line numbers true; blank lines dropped below
             )
         elif suffix in (".sqlite", ".db"):
-            frame = _read_sqlite(path, table, source)
+            from basiswise.data_adapters.database import read_sqlite_file
+
+            frame = read_sqlite_file(path, table, source)
         elif suffix == ".parquet":
             frame = pd.read_parquet(path)
             if not isinstance(frame.index, pd.RangeIndex):  # e.g. a saved DatetimeIndex
@@ -329,12 +317,48 @@ def read_prices(
     """
     source = str(path)
     p = Path(path)
+    _check_request(format, series, source)
+    frame = _read_table(p, source, table)
+    return panel_from_frame(frame, format=format, series=series, date_column=date_column,
+                            series_column=series_column, price_column=price_column,
+                            max_gap_days=max_gap_days, source=p, rows_numbered=True)
+
+
+def _check_request(format: str, series, source: str) -> None:
     if format not in ("wide", "long"):
         raise InputError(f"unknown format {format!r}; use 'wide' or 'long'", key="data.format")
-    series = list(series)
-    if not series:
+    if not list(series):
         raise InputError("no series requested", file=source)
-    frame = _read_table(p, source, table)
+
+
+def panel_from_frame(
+    frame: pd.DataFrame,
+    *,
+    format: str = "wide",
+    series: list[str],
+    date_column: str = "date",
+    series_column: str = "series",
+    price_column: str = "price",
+    max_gap_days: int = 7,
+    source: str | Path = "prices",
+    rows_numbered: bool = False,
+) -> PricePanel:
+    """Align and validate prices already in a DataFrame (same layouts as :func:`read_prices`).
+
+    A wide frame may carry its dates as a ``DatetimeIndex`` instead of a date column. Rows are
+    numbered from 2 (as in a file with a header) unless ``rows_numbered`` says the index
+    already holds them (the file readers set it).
+    """
+    p = source if isinstance(source, Path) else str(source)  # a URL is no path
+    source = str(source)
+    series = list(series)
+    _check_request(format, series, source)
+    if isinstance(frame.index, pd.DatetimeIndex) and date_column not in frame.columns:
+        frame = frame.rename_axis(date_column).reset_index()
+    if not rows_numbered:
+        frame = frame.reset_index(drop=True)
+        frame.index = pd.RangeIndex(_FIRST_DATA_ROW, _FIRST_DATA_ROW + len(frame))
+    frame = frame.rename(columns=lambda c: str(c).strip())
     if format == "wide":
         prices, file_rows = _wide(frame, series, date_column, source)
     else:
@@ -426,11 +450,17 @@ def load_prices(book) -> PricePanel:
         from basiswise.data_adapters.rolls import load_contract_prices  # rolls imports this module
 
         return load_contract_prices(book)
+    from basiswise.data_adapters.currency import needed_series
+
+    if d.prices is None:
+        from basiswise.data_adapters.database import read_database
+
+        return read_database(book, needed_series(book))
     source_path = book.prices_path
     return read_prices(
         source_path,
         format=d.format,
-        series=book.series_ids(),
+        series=needed_series(book),
         date_column=d.date_column,
         series_column=d.series_column,
         price_column=d.price_column,

@@ -85,10 +85,12 @@ def _expiry_table(expiries: pd.DataFrame, source: str | None) -> pd.DataFrame:
     return out.sort_values(["product", "last_trade"], kind="stable").reset_index(drop=True)
 
 
-def _roll_dates(last_trade: pd.Series, roll_days: int) -> np.ndarray:
-    """``roll_days`` business days (Mon–Fri) before each last trading day, as datetime64[D]."""
+def _roll_dates(last_trade: pd.Series, roll_days: int, holidays=None) -> np.ndarray:
+    """``roll_days`` business days (Mon–Fri less ``holidays``) before each last trading day,
+    as datetime64[D]."""
     days = last_trade.to_numpy().astype("datetime64[D]")
-    return np.busday_offset(days, -roll_days, roll="backward")
+    closed = np.array([], dtype="datetime64[D]") if holidays is None else holidays
+    return np.busday_offset(days, -roll_days, roll="backward", holidays=closed)
 
 
 def _contract_prices(prices, contracts, date_column, contract_column, price_column, source):
@@ -121,7 +123,7 @@ def _contract_prices(prices, contracts, date_column, contract_column, price_colu
     return long
 
 
-def _one_product(long, table, product, months, roll_days, adjust, files):
+def _one_product(long, table, product, months, roll_days, adjust, files, holidays=None):
     """Generic months 1..``months`` of one product, each date × month: adjusted prices, file
     rows, the held contract's real price and the difference-adjusted (P&L) levels."""
     prices_file, expiries_file = files
@@ -137,7 +139,7 @@ def _one_product(long, table, product, months, roll_days, adjust, files):
     rows = sub.pivot(index="date", columns="contract", values="r").reindex(columns=names)
     level, rows = level.sort_index(), rows.sort_index()
     dates = level.index
-    roll = _roll_dates(listed["last_trade"], roll_days)
+    roll = _roll_dates(listed["last_trade"], roll_days, holidays)
     # month 1 on date d: the first contract whose roll date is not before d (held through the
     # close of its roll date, the roll is done at that close)
     first = np.searchsorted(roll, dates.to_numpy().astype("datetime64[D]"), side="left")
@@ -212,7 +214,7 @@ def _positive(values, rows, product, k, source):
 
 def _roll(prices, expiries, *, months, roll_days, adjust, date_column="date",
           contract_column="contract", price_column="price", prices_file=None,
-          expiries_file=None):
+          expiries_file=None, holidays=None):
     """Generic months on the dates where every product has a price: adjusted levels, file rows,
     held contracts' prices, P&L levels (see :func:`_one_product`); and the parsed long prices."""
     if adjust not in ADJUSTMENTS:
@@ -232,7 +234,8 @@ def _roll(prices, expiries, *, months, roll_days, adjust, date_column="date",
     long = _contract_prices(prices, set(table["contract"]), date_column, contract_column,
                             price_column, prices_file)
     parts = [_one_product(long, table, product, int(n), int(roll_days), adjust,
-                          (prices_file, expiries_file)) for product, n in months.items()]
+                          (prices_file, expiries_file), holidays)
+             for product, n in months.items()]
     frames = [pd.concat([part[i] for part in parts], axis=1, join="inner") for i in range(4)]
     if frames[0].empty:
         raise InputError("no date has a price for every product "
@@ -258,7 +261,8 @@ def roll_generic(
     r"""Generic contract-month series ``<product>_m<k>`` from per-contract prices.
 
     Which contract: the contracts of a product are ordered by ``last_trade``; contract ``c``
-    rolls on ``roll(c)`` = ``roll_days`` business days (Mon–Fri, no holiday calendar; a
+    rolls on ``roll(c)`` = ``roll_days`` business days (Mon–Fri; through a book, less the closing
+    days of ``[data] calendar`` or ``holidays``, see :mod:`data_adapters.calendars`; a
     weekend ``last_trade`` first moves back to the Friday) before ``last_trade(c)``. It is held
     through the close of ``roll(c)``, where the roll is done. On date ``t`` month ``k`` is the
     ``k``-th contract whose roll date is not before ``t``.
@@ -355,7 +359,9 @@ def load_contract_prices(book) -> PricePanel:
     frame = _read_table(book.prices_path, prices_file, d.table)
     _require_columns(frame, [d.date_column, roll.contract_column, d.price_column],
                      "contract price", prices_file)
-    wanted = book.series_ids()
+    from basiswise.data_adapters.currency import needed_series
+
+    wanted = needed_series(book)
     months: dict[str, int] = {}
     plain: list[str] = []
     for name in wanted:
@@ -379,7 +385,8 @@ def load_contract_prices(book) -> PricePanel:
         frames, long = _roll(
             frame.loc[~is_plain], expiries, months=months, roll_days=roll.roll_days,
             adjust=roll.adjust, date_column=d.date_column, contract_column=roll.contract_column,
-            price_column=d.price_column, prices_file=prices_file, expiries_file=expiries_file)
+            price_column=d.price_column, prices_file=prices_file, expiries_file=expiries_file,
+            holidays=_closing_days(book, expiries))
         parts.append(frames)
         all_dates.update(long["date"])
     if plain:
@@ -401,3 +408,13 @@ def load_contract_prices(book) -> PricePanel:
     return PricePanel(prices=level, source=book.prices_path,
                       dropped_rows=len(all_dates) - len(level), file_rows=rows, held=held,
                       pnl=pnl, adjust=roll.adjust)
+
+
+def _closing_days(book, expiries: pd.DataFrame):
+    """Closing days of the book's calendar over the expiries' span (None: Mon–Fri only)."""
+    if not (book.data.calendar or book.data.holidays):
+        return None
+    from basiswise.data_adapters.calendars import closing_days
+
+    last = _parse_dates(expiries["last_trade"], "last_trade", str(book.expiries_path))
+    return closing_days(book, last.min() - pd.Timedelta(days=60), last.max())

@@ -34,9 +34,20 @@ Definitions and where each comes from
     Avoirdupois pound = 0.45359237 kg exactly (NIST Handbook 44, Appendix C; 1959 agreement).
 ``ozt``
     Troy ounce = 31.1034768 g exactly (NIST Handbook 44, Appendix C).
-``pt``
+``pt`` (alias ``point``)
     Index point, for index-linked exposures and index futures (price unit e.g. ``EUR/pt``); it
     converts only to itself.
+``unit``
+    One countable item (price unit ``USD/unit``, e.g. a contract on a count of allowances or
+    items); converts only to itself.
+``lot``
+    One trading lot of a contract quoted per lot (price unit ``USD/lot``); a count of its own,
+    not convertible to ``unit`` (a lot's size is the contract's, not a standard's).
+Currency codes (``USD``, ``EUR``, any 3 upper-case letters)
+    Amounts of money, for exchange-rate series (``EUR/USD`` is the price of one US dollar in
+    euros) and currency futures (contract size ``125000``, unit ``USD``). A currency converts
+    only to itself; between currencies the book's exchange-rate series convert
+    (:mod:`data_adapters.currency`).
 
 At import the registry checks itself against these numbers and refuses to load if any differ.
 """
@@ -55,6 +66,7 @@ __all__ = [
     "ureg",
     "parse_price_unit",
     "units_in_price_unit",
+    "is_currency",
     "is_known_unit",
 ]
 
@@ -72,6 +84,8 @@ ureg.define("trade_kilotonne = 1000 * trade_tonne")
 ureg.define("trade_pound = 0.45359237 * kilogram")
 ureg.define("trade_troy_ounce = 31.1034768 * gram")
 ureg.define("trade_index_point = [index_point]")
+ureg.define("trade_count_unit = [count_unit]")
+ureg.define("trade_lot = [trade_lot]")
 
 #: Accepted unit names (as written in a book) -> pint expression in :data:`ureg`.
 TRADE_UNITS: dict[str, str] = {
@@ -94,6 +108,9 @@ TRADE_UNITS: dict[str, str] = {
     "lb": "trade_pound",
     "ozt": "trade_troy_ounce",
     "pt": "trade_index_point",
+    "point": "trade_index_point",
+    "unit": "trade_count_unit",
+    "lot": "trade_lot",
 }
 
 _DIMENSION_WORDS = {
@@ -101,6 +118,8 @@ _DIMENSION_WORDS = {
     "[mass]": "mass",
     "[length] ** 2 * [mass] / [time] ** 2": "energy",
     "[index_point]": "index points",
+    "[count_unit]": "a count of units",
+    "[trade_lot]": "a count of lots",
 }
 
 _CURRENCY = re.compile(r"^[A-Z]{3}$")
@@ -137,12 +156,17 @@ _self_check()
 
 
 def is_known_unit(name: str) -> bool:
-    """True if ``name`` is one of the accepted quantity units (:data:`TRADE_UNITS`)."""
-    return name in TRADE_UNITS
+    """True if ``name`` is an accepted quantity unit (:data:`TRADE_UNITS` or a currency code)."""
+    return name in TRADE_UNITS or is_currency(name)
+
+
+def is_currency(name: str) -> bool:
+    """True if ``name`` is written as a currency code (3 upper-case letters, ISO 4217 style)."""
+    return isinstance(name, str) and bool(_CURRENCY.match(name))
 
 
 def _known_list() -> str:
-    return ", ".join(TRADE_UNITS)
+    return ", ".join(TRADE_UNITS) + ", or a currency code such as USD"
 
 
 def parse_price_unit(
@@ -230,7 +254,18 @@ def units_in_price_unit(
         raise InputError(
             f"unknown unit {quantity_unit!r}; known units: {_known_list()}", file=file, key=key
         )
-    q = _quantity(quantity_unit.strip())
+    quantity_unit = quantity_unit.strip()
+    if is_currency(quantity_unit) or is_currency(denominator):
+        if quantity_unit == denominator:
+            return 1.0
+        raise InputError(
+            f"unit {quantity_unit!r} cannot be converted to the price unit {price_unit!r}: "
+            "an amount of money converts only to the same currency (use the exchange-rate "
+            "series priced per that currency)",
+            file=file,
+            key=key,
+        )
+    q = _quantity(quantity_unit)
     d = _quantity(denominator)
     if q.dimensionality != d.dimensionality:
         raise InputError(

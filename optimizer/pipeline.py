@@ -35,12 +35,13 @@ class Prepared:
     panel: PricePanel
     cut_notes: list[str] = field(default_factory=list)   # what the as_of date removed
     overrides: dict = field(default_factory=dict)        # settings replaced by the caller
+    currency_notes: tuple[str, ...] = ()                 # prices converted
 
     @property
     def notes(self) -> list[str]:
         n = self.panel.dropped_rows
         dropped = [f"{n} price rows dropped to align series on common dates"] if n else []
-        return dropped + list(self.cut_notes)
+        return dropped + list(self.cut_notes) + list(self.currency_notes)
 
 
 def _month_end(month: str) -> date:
@@ -80,25 +81,47 @@ def cut_at(panel: PricePanel, day: date, source: str) -> tuple[PricePanel, list[
                  f"{panel.last_date.date()}; the last one used is {cut.last_date.date()})"]
 
 
-def prepare(book: Book | str | Path, **overrides) -> Prepared:
+def _panel_of(book: Book, prices) -> PricePanel:
+    """The book's own source, or ``prices`` given as a DataFrame (wide) or a file path."""
+    from basiswise.data_adapters.currency import needed_series
+    from basiswise.data_adapters.prices import panel_from_frame, read_prices
+
+    if prices is None:
+        return load_prices(book)
+    d, names = book.data, needed_series(book)
+    if isinstance(prices, pd.DataFrame):
+        return panel_from_frame(prices, series=names, date_column=d.date_column,
+                                max_gap_days=d.max_gap_days, source="prices (DataFrame)")
+    return read_prices(prices, format=d.format, series=names, date_column=d.date_column,
+                       series_column=d.series_column, price_column=d.price_column,
+                       max_gap_days=d.max_gap_days, table=d.table)
+
+
+def prepare(book: Book | str | Path, prices=None, **overrides) -> Prepared:
     """Load and validate a book and its prices; ``overrides`` replace estimation settings.
 
+    ``prices`` replaces the book's ``[data]`` source: a wide DataFrame (a ``DatetimeIndex`` or a
+    date column, one column per series) or a price file. Prices in other currencies are turned
+    into the book currency (:func:`data_adapters.currency.to_book_currency`).
     Accepted overrides: ``estimator``, ``window``, ``horizon_days``, ``changes``, ``sampling``
     (``None`` values are ignored).
     """
+    from basiswise.data_adapters.currency import to_book_currency
+
     if not isinstance(book, Book):
         book = load_book(book)
     overrides = {k: v for k, v in overrides.items() if v is not None}
     if overrides:
         book = book.with_overrides(**overrides)
-    panel = load_prices(book)
+    panel = _panel_of(book, prices)
     cut_notes: list[str] = []
     if book.book.as_of is not None:
         _check_months(book, book.book.as_of)
         panel, cut_notes = cut_at(panel, book.book.as_of, book.source)
+    book, panel, fx_notes = to_book_currency(book, panel)  # at the rates of the decision date
     if book.estimation.changes in RATIO_CHANGES:
         check_positive(panel, list(panel.prices.columns))
-    return Prepared(book, panel, cut_notes, overrides)
+    return Prepared(book, panel, cut_notes, overrides, tuple(fx_notes))
 
 
 def model_of(prep: Prepared, *, fractional: bool = False, prices=None, as_of=None) -> HedgeModel:
@@ -150,13 +173,14 @@ def solve_model(model: HedgeModel, method: str = "exact", *, time_limit: float =
 
 
 def solve_book(book: Book | str | Path, method: str = "exact", *, time_limit: float = 30.0,
-               frontier: bool = False, **overrides) -> HedgeReport:
+               frontier: bool = False, prices=None, **overrides) -> HedgeReport:
     """Hedge a book end to end: load, estimate, solve in whole contracts (by default), report.
 
+    ``prices`` (a DataFrame or a file) replaces the book's ``[data]`` source, see :func:`prepare`.
     ``overrides`` replace estimation settings and the cost setting (``price_of_risk`` or
     ``budget`` of ``[costs]``); ``frontier=True`` adds the risk–cost frontier to the report.
     """
-    prep = prepare(book, **overrides)
+    prep = prepare(book, prices, **overrides)
     model = model_of(prep, fractional=(method == "continuous"))
     rep = solve_model(model, method, time_limit=time_limit, notes=prep.notes,
                       frontier=frontier, last_price_date=prep.panel.last_date)

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-__all__ = ["demo_book_path"]
+__all__ = ["demo_book_path", "eur_plant_book_path"]
 
 
 def demo_book_path() -> Path:
@@ -16,3 +16,11 @@ def demo_book_path() -> Path:
         Absolute path; regenerate the files with ``python -m basiswise.scenarios.generate_demo``.
     """
     return Path(__file__).resolve().parent / "demo" / "book.toml"
+
+
+def eur_plant_book_path() -> Path:
+    """Path of the two-currency example book ``scenarios/eur_plant/book.toml``.
+
+    Regenerate its files with ``python -m basiswise.scenarios.generate_fx_demo``.
+    """
+    return Path(__file__).resolve().parent / "eur_plant" / "book.toml"

@@ -157,12 +157,19 @@ def solve(
 
 @app.command()
 @guarded
-def check(book: Path = BookArg) -> None:
-    """Validate a book and its prices without solving; warn about short history and limits
-    that cannot hold together."""
+def check(
+    book: Path = BookArg,
+    as_json: bool = JsonOpt,
+    strict: bool = typer.Option(False, "--strict", help="Warnings and conflicts are errors."),
+    stale_days: int = typer.Option(5, help="Rows of unchanged price that make a stale run."),
+    jump_z: float = typer.Option(10.0, help="Robust z-score above which a move is a jump."),
+) -> None:
+    """Report the quality of the book's price history per series, validate the book, and warn
+    about short history and limits that cannot hold together."""
     from .check_cmd import run_check
 
-    run_check(book, out)
+    check_ranges(stale_days=(stale_days, 2, False), jump_z=(jump_z, 0, True))
+    run_check(book, out, as_json=as_json, strict=strict, stale_days=stale_days, jump_z=jump_z)
 
 
 @app.command()

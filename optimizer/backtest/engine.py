@@ -349,6 +349,12 @@ def run_backtest(
     est_cfg, H = bk.estimation, bk.book.horizon_days
     panel = prep.panel
     if prices is not None:  # plain levels: what they show is what was known on each date
+        from basiswise.data_adapters.currency import rate_sources
+
+        if rate_sources(bk):
+            raise InputError("a book in several currencies converts its prices in prepare(): "
+                             "pass prepare(book, prices=...) as the book instead of prices=",
+                             key="data.prices")
         missing = sorted(set(bk.series_ids()) - set(prices.columns))
         if missing:
             raise InputError(f"price panel lacks series {', '.join(missing)}", key="data.prices")

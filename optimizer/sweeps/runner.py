@@ -209,7 +209,9 @@ class SweepRunner:
         e = model.E.sum(axis=0)
         if "shock_pct" in sc.settings:
             pct = sc.settings["shock_pct"]
-            dP = shock_vector(model.series, model.prices, pct)
+            from basiswise.data_adapters.currency import book_currency_shocks
+
+            dP = shock_vector(model.series, model.prices, book_currency_shocks(model.book, pct))
             label = "shock " + ", ".join(f"{k} {v:+g} %" for k, v in pct.items())
         elif "replay_worst" in sc.settings:
             hkey = (model.changes.horizon_days, model.changes.kind)

@@ -114,3 +114,23 @@ def test_every_unit_converts_to_itself():
     for name in TRADE_UNITS:
         assert units_in_price_unit(name, f"USD/{name}", key="k") == 1.0
         assert math.isfinite(q(name).to_base_units().magnitude)
+
+
+def test_count_and_index_units_convert_only_to_themselves():
+    assert units_in_price_unit("point", "USD/pt", key="k") == 1.0
+    assert units_in_price_unit("unit", "USD/unit", key="k") == 1.0
+    assert units_in_price_unit("lot", "EUR/lot", key="k") == 1.0
+    for qty, price in (("unit", "USD/lot"), ("pt", "USD/unit"), ("t", "USD/unit")):
+        with pytest.raises(InputError, match="incompatible dimensions"):
+            units_in_price_unit(qty, price, key="k")
+
+
+def test_currency_amounts_as_quantities_and_rates():
+    # a euro future of 125,000 EUR on a rate quoted in USD per EUR
+    assert parse_price_unit("USD/EUR") == ("USD", "EUR")
+    assert units_in_price_unit("EUR", "USD/EUR", key="k") == 1.0
+    with pytest.raises(InputError, match="converts only to the same currency") as info:
+        units_in_price_unit("USD", "USD/EUR", key="instrument 'FX'.unit")
+    assert info.value.key == "instrument 'FX'.unit"
+    with pytest.raises(InputError):
+        units_in_price_unit("EUR", "USD/t", key="k")
