@@ -16,6 +16,7 @@ from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, field_validator
 
+from data_adapters.boundary import input_boundary
 from data_adapters.errors import InputError, from_validation_error
 from data_adapters.toml_file import read_toml
 from data_adapters.units import parse_price_unit, units_in_price_unit
@@ -34,6 +35,15 @@ __all__ = [
     "load_book",
 ]
 
+# Plausible ranges, checked at the door: beyond them a number is a typo or a unit slip, and
+# carried into the solver it would overflow (an int of 1e300 days) or lose all precision.
+MAX_CONTRACTS = 1e7        # positions, limits, current holdings (contracts)
+MAX_CONTRACT_SIZE = 1e9    # units of the series per contract
+MAX_QUANTITY = 1e12        # exposure quantity, in its unit
+MAX_MONEY = 1e15           # margin budget (currency)
+MAX_PER_CONTRACT = 1e9     # margin or cost per contract (currency)
+MAX_DAYS = 1000            # horizon, execution days (business days)
+
 Changes = Literal["relative", "log", "absolute"]
 Estimator = Literal["sample", "ledoit-wolf", "oas", "constant-correlation", "ewma"]
 Sampling = Literal["overlapping", "non-overlapping", "scaled"]
@@ -48,7 +58,7 @@ class BookMeta(_Model):
 
     name: str = Field(min_length=1)
     currency: str = Field("USD", pattern=r"^[A-Z]{3}$")
-    horizon_days: int = Field(20, ge=1)
+    horizon_days: int = Field(20, ge=1, le=MAX_DAYS)
     as_of: date | None = None
 
 
@@ -61,7 +71,7 @@ class RollSpec(_Model):
     """
 
     expiries: str = Field(min_length=1)
-    roll_days: int = Field(5, ge=0)
+    roll_days: int = Field(5, ge=0, le=250)
     adjust: Literal["ratio", "difference", "none"] = "ratio"
     contract_column: str = Field("contract", min_length=1)
 
@@ -77,7 +87,7 @@ class DataSpec(_Model):
     date_column: str = Field("date", min_length=1)
     series_column: str = Field("series", min_length=1)
     price_column: str = Field("price", min_length=1)
-    max_gap_days: int = Field(7, ge=1)
+    max_gap_days: int = Field(7, ge=1, le=3660)
     table: str = Field("prices", min_length=1)  # table name when prices is a SQLite database
     roll: RollSpec | None = None
 
@@ -95,7 +105,7 @@ class DataSpec(_Model):
 class EstimationSpec(_Model):
     """``[estimation]``: history window, kind of price change, covariance estimator, sampling."""
 
-    window: int = Field(500, ge=2)
+    window: int = Field(500, ge=2, le=1_000_000)
     changes: Changes = "relative"
     estimator: Estimator = "ledoit-wolf"
     ewma_lambda: float = Field(0.94, gt=0.0, lt=1.0)
@@ -113,7 +123,7 @@ class Exposure(_Model):
 
     id: str = Field(min_length=1)
     series: str
-    quantity: float
+    quantity: float = Field(ge=-MAX_QUANTITY, le=MAX_QUANTITY)
     unit: str
     proxy: str | None = None
 
@@ -123,17 +133,17 @@ class Instrument(_Model):
 
     id: str = Field(min_length=1)
     series: str
-    contract_size: float = Field(gt=0.0)
+    contract_size: float = Field(gt=0.0, le=MAX_CONTRACT_SIZE)
     unit: str
-    min_position: float | None = None
-    max_position: float | None = None
-    position_limit: float | None = Field(None, ge=0.0)
-    current: int = 0
-    adv: float | None = Field(None, ge=0.0)
+    min_position: float | None = Field(None, ge=-MAX_CONTRACTS, le=MAX_CONTRACTS)
+    max_position: float | None = Field(None, ge=-MAX_CONTRACTS, le=MAX_CONTRACTS)
+    position_limit: float | None = Field(None, ge=0.0, le=MAX_CONTRACTS)
+    current: int = Field(0, ge=-MAX_CONTRACTS, le=MAX_CONTRACTS)
+    adv: float | None = Field(None, ge=0.0, le=MAX_CONTRACTS * 100)
     max_participation: float = Field(0.1, gt=0.0, le=1.0)
-    execution_days: float = Field(1.0, gt=0.0)
-    margin: float = Field(0.0, ge=0.0)
-    cost_per_contract: float = Field(0.0, ge=0.0)
+    execution_days: float = Field(1.0, gt=0.0, le=MAX_DAYS)
+    margin: float = Field(0.0, ge=0.0, le=MAX_PER_CONTRACT)
+    cost_per_contract: float = Field(0.0, ge=0.0, le=MAX_PER_CONTRACT)
     contract_month: str | None = Field(None, pattern=r"^\d{4}-(0[1-9]|1[0-2])$")
 
     def bounds(self) -> tuple[float, float]:
@@ -150,7 +160,7 @@ class GroupLimit(_Model):
 
     id: str = Field(min_length=1)
     instruments: list[str] = Field(min_length=1)
-    limit: float = Field(gt=0.0)
+    limit: float = Field(gt=0.0, le=MAX_CONTRACTS * 100)
 
 
 class Constraints(_Model):
@@ -161,7 +171,7 @@ class Constraints(_Model):
     exposure points to are not capped (they serve as cross hedges only).
     """
 
-    margin_budget: float | None = Field(None, gt=0.0)
+    margin_budget: float | None = Field(None, gt=0.0, le=MAX_MONEY)
     hedge_only: bool = False
     no_over_hedge: bool = False
 
@@ -251,13 +261,14 @@ class Book(_Model):
         """
         if not isinstance(data, dict):
             raise InputError("the book must be a table of keys", file=source)
-        try:
-            book = cls.model_validate(data)
-        except ValidationError as err:
-            raise from_validation_error(
-                err, data, source=source, root=cls, id_tables=_ID_TABLES, words=_PATTERN_WORDS
-            ) from None
-        _check(book, source)
+        with input_boundary(source, "book file"):
+            try:
+                book = cls.model_validate(data)
+            except ValidationError as err:
+                raise from_validation_error(
+                    err, data, source=source, root=cls, id_tables=_ID_TABLES,
+                    words=_PATTERN_WORDS) from None
+            _check(book, source)
         src = Path(source)
         book._path = src if src.is_absolute() else Path(folder) / src.name
         book._source = source

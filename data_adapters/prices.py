@@ -29,7 +29,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from data_adapters.errors import InputError
+from data_adapters.boundary import input_boundary
+from data_adapters.errors import InputError, shorten, summarise
 
 __all__ = ["MISSING_MARKERS", "PricePanel", "check_positive", "load_prices", "read_prices"]
 
@@ -37,6 +38,11 @@ __all__ = ["MISSING_MARKERS", "PricePanel", "check_positive", "load_prices", "re
 MISSING_MARKERS = frozenset({"", "NA", "N/A", "NaN", "nan", "null", "NULL", "#N/A", "-"})
 
 _SUFFIXES = (".csv", ".parquet", ".xlsx", ".sqlite", ".db")
+#: Largest price accepted (in absolute value): beyond it a cell is a unit slip or a filler
+#: value, and squared in a covariance it would overflow.
+MAX_PRICE = 1e9
+_WHAT = {".xlsx": "price workbook", ".sqlite": "price database", ".db": "price database"}
+_ZONE = r"\d{2}:\d{2}(?::\d{2}(?:\.\d*)?)?\s*(Z|[+-]\d{2}(?::?\d{2})?)$"  # offset after a time
 _FIRST_DATA_ROW = 2  # header is row 1
 
 
@@ -107,8 +113,10 @@ class PricePanel:
 def _read_sqlite(path: Path, table: str, source: str) -> pd.DataFrame:
     """All rows of ``table`` in a SQLite database, as text (parsed like a CSV afterwards)."""
     import sqlite3
+    from urllib.parse import quote
 
-    uri = f"file:{path.resolve()}?mode=ro"  # read only: a price source is never written
+    # read only: a price source is never written; the path is %-encoded ('%' or '?' in a name)
+    uri = f"file:{quote(str(path.resolve()))}?mode=ro"
     with sqlite3.connect(uri, uri=True) as con:
         names = {r[0] for r in con.execute("SELECT name FROM sqlite_master WHERE type='table'")}
         if table not in names:
@@ -165,17 +173,45 @@ def _read_table(path: Path, source: str, table: str = "prices") -> pd.DataFrame:
     except (OSError, ValueError) as err:
         raise InputError(f"cannot read the file: {err}", file=source) from None
     frame.columns = [str(c).strip() for c in frame.columns]
+    _refuse_duplicate_columns(path, suffix, frame, source)
     # The index holds the file row of each line (header = row 1), kept through filtering.
     frame.index = pd.RangeIndex(_FIRST_DATA_ROW, _FIRST_DATA_ROW + len(frame))
     blank = frame.apply(lambda c: c.isna() | (c.astype("string").str.strip() == "")).all(axis=1)
     return frame.loc[~blank.to_numpy(dtype=bool)]
 
 
+def _header_names(path: Path, suffix: str, frame: pd.DataFrame) -> list[str]:
+    """Column names as written in the file (pandas renames repeated names to ``x.1``)."""
+    if suffix == ".csv":
+        head = pd.read_csv(path, header=None, nrows=1, dtype=str, keep_default_na=False,
+                           encoding="utf-8-sig", skipinitialspace=True)
+        return [str(c).strip() for c in head.iloc[0]] if len(head) else []
+    if suffix == ".xlsx":
+        head = pd.read_excel(path, sheet_name=0, engine="openpyxl", header=None, nrows=1)
+        return [str(c).strip() for c in head.iloc[0]] if len(head) else []
+    if suffix == ".parquet":
+        import pyarrow.parquet as pq
+
+        return [str(c).strip() for c in pq.read_schema(path).names]
+    return list(frame.columns)
+
+
+def _refuse_duplicate_columns(path: Path, suffix: str, frame: pd.DataFrame, source: str) -> None:
+    """Two columns of one name: which one is the price is a guess, so refuse the file."""
+    names = _header_names(path, suffix, frame)
+    seen: dict[str, int] = {}
+    for j, name in enumerate(names):
+        if name in seen and name not in ("", "nan"):
+            raise InputError(f"column name used twice (columns {seen[name] + 1} and {j + 1}); "
+                             "rename one", file=source, row=1, column=name)
+        seen.setdefault(name, j)
+
+
 def _require_columns(frame: pd.DataFrame, needed: list[str], what: str, source: str) -> None:
     missing = [c for c in needed if c not in frame.columns]
     if missing:
-        found = ", ".join(map(repr, frame.columns)) or "none"
-        names = ", ".join(map(repr, missing))
+        found = summarise(frame.columns, 8) or "none"
+        names = summarise(missing, 5)
         raise InputError(
             f"missing {what} column(s) {names} (found: {found})",
             file=source,
@@ -188,6 +224,7 @@ def _parse_dates(col: pd.Series, column: str, source: str) -> pd.DatetimeIndex:
         parsed = pd.to_datetime(col)
     else:
         text = col.astype("string").str.strip()
+        _refuse_mixed_zones(text, column, source)
         parsed = pd.to_datetime(text, errors="coerce", format="ISO8601")
         is_date_obj = col.map(lambda v: hasattr(v, "year") and not isinstance(v, str))
         if is_date_obj.any():  # date cells read as objects (Excel, Parquet date32)
@@ -196,7 +233,7 @@ def _parse_dates(col: pd.Series, column: str, source: str) -> pd.DatetimeIndex:
     if bad.any():
         i = int(np.flatnonzero(bad.to_numpy())[0])
         raise InputError(
-            f"cannot read date {col.iloc[i]!r} (use ISO dates like 2024-03-15)",
+            f"cannot read date {shorten(col.iloc[i], 40)} (use ISO dates like 2024-03-15)",
             file=source,
             row=int(col.index[i]),
             column=column,
@@ -205,6 +242,22 @@ def _parse_dates(col: pd.Series, column: str, source: str) -> pd.DatetimeIndex:
     if index.tz is not None:
         index = index.tz_localize(None)
     return index.normalize()
+
+
+def _refuse_mixed_zones(text: pd.Series, column: str, source: str) -> None:
+    """Dates written with different UTC offsets (or some with, some without) are refused.
+
+    Converting them would move some rows to another calendar date; plain dates are meant.
+    """
+    zones = text.str.extract(_ZONE, expand=False).fillna("")
+    dated = text.fillna("").str.len() > 0
+    zones, rows = zones[dated], text.index[dated.to_numpy()]
+    if len(zones) and (zones != zones.iloc[0]).any():
+        i = int(np.flatnonzero((zones != zones.iloc[0]).to_numpy())[0])
+        first = zones.iloc[0] or "no zone"
+        raise InputError(f"date {shorten(text[dated].iloc[i], 40)} has time zone "
+                         f"{zones.iloc[i] or 'none'} but the first date has {first}; write plain "
+                         "dates like 2024-03-15", file=source, row=int(rows[i]), column=column)
 
 
 def _parse_prices(col: pd.Series, column: str, source: str) -> np.ndarray:
@@ -224,7 +277,17 @@ def _parse_prices(col: pd.Series, column: str, source: str) -> np.ndarray:
     if bad.any():
         i = int(np.flatnonzero(bad)[0])
         raise InputError(
-            f"price {col.iloc[i]!r} is not a finite number",
+            f"price {shorten(col.iloc[i], 40)} is not a finite number",
+            file=source,
+            row=int(col.index[i]),
+            column=column,
+        )
+    huge = np.abs(np.nan_to_num(values)) > MAX_PRICE
+    if huge.any():
+        i = int(np.flatnonzero(huge)[0])
+        raise InputError(
+            f"price {shorten(col.iloc[i], 40)} is outside the plausible range "
+            f"(at most {MAX_PRICE:g} in absolute value)",
             file=source,
             row=int(col.index[i]),
             column=column,
@@ -265,7 +328,7 @@ def _long(frame, series, date_column, series_column, price_column, source):
     absent = [s for s in series if s not in present]
     if absent:
         raise InputError(
-            f"series {', '.join(map(repr, absent))} not found in column {series_column!r}",
+            f"series {summarise(absent)} not found in column {series_column!r}",
             file=source,
             column=series_column,
         )
@@ -330,10 +393,18 @@ def read_prices(
     source = str(path)
     p = Path(path)
     if format not in ("wide", "long"):
-        raise InputError(f"unknown format {format!r}; use 'wide' or 'long'", key="data.format")
+        raise InputError(f"unknown format {shorten(format)}; use 'wide' or 'long'",
+                         key="data.format")
     series = list(series)
     if not series:
         raise InputError("no series requested", file=source)
+    with input_boundary(source, _WHAT.get(p.suffix.lower(), "price file")):
+        return _read_prices(p, source, format, series, date_column, series_column, price_column,
+                            max_gap_days, table)
+
+
+def _read_prices(p, source, format, series, date_column, series_column, price_column,
+                 max_gap_days, table) -> PricePanel:
     frame = _read_table(p, source, table)
     if format == "wide":
         prices, file_rows = _wide(frame, series, date_column, source)
@@ -345,7 +416,8 @@ def read_prices(
     complete = prices.notna().all(axis=1).to_numpy()
     dropped = int((~complete).sum())
     if not complete.any():
-        counts = ", ".join(f"{s}: {int(n)}" for s, n in prices.notna().sum().items())
+        counts = summarise([f"{s}: {int(n)}" for s, n in prices.notna().sum().items()], 6,
+                           quote=False)
         raise InputError(
             f"no date has a price for every series (dates with a price: {counts})", file=source
         )

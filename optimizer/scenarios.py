@@ -61,6 +61,7 @@ from pathlib import Path
 from typing import Any
 
 from data_adapters.book import Book
+from data_adapters.boundary import input_boundary
 from data_adapters.toml_file import read_toml
 
 from .scenario_checks import (
@@ -252,7 +253,8 @@ def load_scenarios(path: str | Path, book: Book) -> ScenarioSet:
     """Read, validate and expand a scenario file for ``book``."""
     data = read_toml(path, "scenario file")
     source = str(path)
-    return parse_scenarios(data, book, source)
+    with input_boundary(source, "scenario file"):
+        return parse_scenarios(data, book, source)
 
 
 # --------------------------------------------------------------------------- applying
