@@ -232,6 +232,11 @@ class Book(_Model):
         """The contract expiries file of ``[data.roll]``, resolved; None without a roll table."""
         return None if self.data.roll is None else self.folder / self.data.roll.expiries
 
+    def input_files(self) -> list[Path]:
+        """The files this book reads (book, prices, expiries): never an output path."""
+        files = [self.path, self.prices_path]
+        return files + ([self.expiries_path] if self.expiries_path is not None else [])
+
     def series_ids(self) -> list[str]:
         """Series used by exposures and instruments, in order of first use."""
         seen: dict[str, None] = {}

@@ -12,7 +12,7 @@ from pathlib import Path
 import typer
 from rich.table import Table
 
-from .common import EXIT_NO_HEDGE, err, fail, guarded, out
+from .common import EXIT_NO_HEDGE, book_inputs, check_outputs, err, fail, guarded, out
 
 app = typer.Typer(add_completion=False, no_args_is_help=True,
                   help="Joint minimum-variance cross hedges in whole futures contracts.")
@@ -37,6 +37,7 @@ def _solve_and_show(book, method, trades, as_json, time_limit, **overrides) -> N
         fail(f"unknown method '{method}'; valid: exact, round, continuous")
     if trades is not None and method == "continuous":
         fail("--trades needs whole contracts: use --method exact or round")
+    check_outputs({"--trades": trades}, book_inputs(book))
     busy = (err.status("estimating and solving the hedge…") if err.is_terminal
             else contextlib.nullcontext())
     with busy:
@@ -48,14 +49,19 @@ def _solve_and_show(book, method, trades, as_json, time_limit, **overrides) -> N
             print_report(report, out)
         fail(f"{book}: no feasible hedge ({report.status}); no trade list written",
              EXIT_NO_HEDGE)
-    if trades is not None:
-        _write_trades(report, trades)
+    # everything is rendered before the trade list is written: a failure while showing the
+    # result leaves no file behind
     if as_json:
-        print(json.dumps(report.to_dict(), indent=2))
+        text = json.dumps(report.to_dict(), indent=2)
+        if trades is not None:
+            _write_trades(report, trades)
+        print(text)
     else:
         print_report(report, out)
         if trades is not None:
-            out.print(f"trade list written to [bold]{trades}[/]")
+            _write_trades(report, trades)
+            out.print("trade list written to ", end="")
+            out.print(str(trades), style="bold", markup=False, highlight=False)
 
 
 @app.command()
@@ -113,12 +119,13 @@ def report(
 
     if method not in ("exact", "round", "continuous"):
         fail(f"unknown method '{method}'; valid: exact, round, continuous")
+    check_outputs({"--out": output}, book_inputs(book))
     rep = solve_book(book, method, time_limit=time_limit)
     if not rep.ok:
         fail(f"{book}: no feasible hedge ({rep.status}); no report written", EXIT_NO_HEDGE)
     write_text_atomic(to_markdown(rep, source=str(book)), output)
-    out.print(f"hedge report written to [bold]{output}[/] (hedged std "
-              f"{rep.hedged_std:,.0f} {rep.currency} over {rep.horizon_days} days)")
+    out.print(f"hedge report written to {output} (hedged std {rep.hedged_std:,.0f} "
+              f"{rep.currency} over {rep.horizon_days} days)", markup=False, highlight=False)
 
 
 @app.command()
@@ -150,8 +157,10 @@ def main() -> None:
     """Console-script entry point."""
     try:
         app()
-    except KeyboardInterrupt:
-        sys.exit(130)
+    except KeyboardInterrupt as exc:  # outside a command (e.g. while starting up)
+        from optimizer.interrupts import exit_code
+
+        sys.exit(exit_code(exc))
 
 
 if __name__ == "__main__":

@@ -9,7 +9,7 @@ import typer
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
-from .common import err, fail, guarded, out
+from .common import book_inputs, check_outputs, err, fail, guarded, out
 from .tables import cautions_panel, money, num, pct
 
 
@@ -100,6 +100,7 @@ def register(app: typer.Typer) -> None:
 
         if method not in WHOLE_METHODS:
             fail(f"unknown method '{method}'; valid: {', '.join(WHOLE_METHODS)}")
+        check_outputs({"--png": png}, book_inputs(book))
         prep = prepare(book, window=window, horizon_days=horizon)
         strat = _names(strategies, STRATEGIES, list(STRATEGIES), "strategy")
         ests = _names(estimators, ESTIMATORS, [prep.book.estimation.estimator], "estimator")
