@@ -135,26 +135,38 @@ def _d(a) -> np.ndarray:
     return np.ascontiguousarray(a, dtype=np.float64)
 
 
-def _interruptible(lib, p: _Problem, cancel: ctypes.c_int) -> int:
+def _interruptible(lib, p: _Problem, cancel: ctypes.c_int, keep: dict) -> int:
     """Run the search in a helper thread so that Ctrl-C in the main thread can stop it.
 
     ctypes releases the GIL during the call, so the main thread keeps waiting in short joins; on
     KeyboardInterrupt it sets ``cancel`` (the search stops within 1,024 nodes), waits for the
-    search to end and re-raises.
+    search to end and re-raises. Further interrupts while it waits are swallowed: the C loop
+    reads and writes the arrays in ``keep`` until it returns, so they must outlive it (the
+    thread holds them too).
     """
     global last_interrupt
     out = []
     worker = threading.Thread(target=lambda: out.append(lib.bw_enumerate(ctypes.byref(p))),
                               name="basiswise-search", daemon=True)
+    worker.bw_arrays = (p, cancel, keep)  # alive as long as the thread object is
     worker.start()
     try:
         _wait(worker)
     except KeyboardInterrupt:
         cancel.value = 1
-        worker.join()
+        _join_through_interrupts(worker)
         last_interrupt = (bool(p.stopped), int(p.nodes))
         raise
     return out[0] if out else 1
+
+
+def _join_through_interrupts(worker: threading.Thread) -> None:
+    """Wait for the search thread to end, ignoring any further KeyboardInterrupt meanwhile."""
+    while worker.is_alive():
+        try:
+            worker.join(0.05)
+        except KeyboardInterrupt:
+            continue
 
 
 def _wait(worker: threading.Thread) -> None:
@@ -210,7 +222,8 @@ def run_native(prep: dict, best_f: float, time_limit: float):
     if n <= _DIRECT_MAX_N or threading.current_thread() is not threading.main_thread():
         rc = lib.bw_enumerate(ctypes.byref(p))
     else:
-        rc = _interruptible(lib, p, cancel)
+        keep["best_y"] = best_y
+        rc = _interruptible(lib, p, cancel, keep)
     if rc != 0:
         raise MemoryError("the compiled search could not allocate its work space")
     frontier = float(p.frontier) if p.stopped else None

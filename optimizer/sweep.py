@@ -27,6 +27,7 @@ import os
 import time
 from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures.process import BrokenProcessPool
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any
@@ -41,6 +42,7 @@ from .cautions import CAUTIONS
 from .changes import horizon_changes
 from .conflicts import limit_conflicts
 from .covariance import estimate_covariance
+from .interrupts import stop_pool, worker_init
 from .jsonsafe import finite
 from .model import HedgeModel, build_hedge_model, with_limits
 from .report import build_report
@@ -262,21 +264,11 @@ class SweepRunner:
 _WORKER_RUNNERS: dict[str, SweepRunner] = {}
 
 
-def _init_worker() -> None:
-    try:  # one BLAS thread per worker process: the matrices are small, the cores few
-        from threadpoolctl import threadpool_limits
-
-        threadpool_limits(1)
-    except ImportError:  # pragma: no cover
-        pass
-
-
 def _run_chunk(payload: dict, items: list[tuple[int, str, dict]]) -> list[tuple[int, Any]]:
     """Worker entry: solve ``items`` for the book in ``payload`` (runner cached per process)."""
     key = repr(sorted((k, repr(v)) for k, v in payload.items()))
     runner = _WORKER_RUNNERS.get(key)
     if runner is None:
-        _init_worker()
         runner = SweepRunner(payload["ref"], method=payload["method"], reuse=payload["reuse"],
                              time_limit=payload["time_limit"], source=payload["source"])
         _WORKER_RUNNERS.clear()
@@ -319,6 +311,32 @@ def _collect(finished, results: list, done: int, total: int, progress) -> int:
         if progress:
             progress(done, total)
     return done
+
+
+def _local_pool(items, payload, workers, pool, results, total, progress) -> tuple[int, str]:
+    """Run the chunks on local worker processes; returns (done, note).
+
+    An interrupt ends the workers at once (none outlives the sweep). A worker that dies (killed,
+    out of memory) breaks the pool: the scenarios it left unsolved are then solved in this
+    process, and the note says so.
+    """
+    own = pool is None
+    ex = pool or ProcessPoolExecutor(max_workers=workers, mp_context=_mp_context(),
+                                     initializer=worker_init)
+    done, note = 0, ""
+    try:
+        futs = [ex.submit(_run_chunk, payload, ch) for ch in _chunks(items, 4 * workers)]
+        done = _collect(as_completed(futs), results, done, total, progress)
+    except BrokenProcessPool:
+        note = "a worker process died; its scenarios were solved in the main process"
+    except BaseException:
+        if own:
+            stop_pool(ex)
+        raise
+    finally:
+        if own:
+            ex.shutdown(wait=True, cancel_futures=True)
+    return done, note
 
 
 def run_sweep(book: Any, scenarios: ScenarioSet | list[Scenario], *, method: str = "exact",
@@ -386,14 +404,15 @@ def run_sweep(book: Any, scenarios: ScenarioSet | list[Scenario], *, method: str
                     client.close()
         else:
             mode = f"{workers} local processes"
-            own = pool is None
-            ex = pool or ProcessPoolExecutor(max_workers=workers, mp_context=_mp_context())
-            try:
-                futs = [ex.submit(_run_chunk, payload, ch) for ch in _chunks(items, 4 * workers)]
-                done = _collect(as_completed(futs), results, done, total, progress)
-            finally:
-                if own:
-                    ex.shutdown(wait=True, cancel_futures=True)
+            done, note = _local_pool(items, payload, workers, pool, results, total, progress)
+            if note:
+                mode += f" ({note})"
+                for i, sc in enumerate(scs):
+                    if results[i] is None:
+                        results[i] = main.run(sc)
+                        done += 1
+                        if progress:
+                            progress(done, total)
     b = main.book
     return SweepResult(book=b.book.name, currency=b.book.currency,
                        horizon_days=b.book.horizon_days, method=method, mode=mode,
