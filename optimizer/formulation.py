@@ -58,6 +58,10 @@ class Structure:
         )
 
 
+class SolverFailure(RuntimeError):
+    """A solver failed (an error, not an answer): no hedge is reported, none is certified."""
+
+
 @dataclass(frozen=True)
 class FormulationResult:
     """Solution of one solve.

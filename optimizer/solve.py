@@ -20,10 +20,11 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from .formulation import FormulationResult, solve_relaxed
+from .formulation import FormulationResult, SolverFailure, solve_relaxed
 from .qp import HedgeQP
 
 METHODS = ("exact", "round", "continuous")
+__all__ = ["METHODS", "HedgeSolution", "SolverFailure", "solve_qp"]
 
 
 @dataclass(frozen=True)
@@ -65,6 +66,10 @@ def solve_qp(qp: HedgeQP, method: str = "exact", *, time_limit: float = 30.0,
         raise ValueError(f"unknown method {method!r}; valid: {', '.join(METHODS)}")
     t0 = time.perf_counter()
     relaxed = solve_relaxed(qp, reuse=reuse)
+    if relaxed.status.startswith("solver_error"):
+        raise SolverFailure(f"the continuous solver ({relaxed.solver}) failed: "
+                            f"{relaxed.status.removeprefix('solver_error: ')[:150]}; no hedge "
+                            "is reported")
     if relaxed.x is None:
         return _infeasible(method, relaxed, t0)
     if method == "continuous":
