@@ -10,6 +10,7 @@ third ``[[exposure]]`` table). Paths in the book are relative to the book's fold
 from __future__ import annotations
 
 import math
+import re
 from datetime import date
 from pathlib import Path
 from typing import Any, Literal
@@ -49,8 +50,31 @@ Estimator = Literal["sample", "ledoit-wolf", "oas", "constant-correlation", "ewm
 Sampling = Literal["overlapping", "non-overlapping", "scaled"]
 
 
+_CONTROL_CHARS = re.compile(r"[\x00-\x1f\x7f-\x9f]")
+
+
+def _no_control(value: str) -> str:
+    """Text keys reach tables, CSV and Markdown: a newline or escape in them would forge lines."""
+    hit = _CONTROL_CHARS.search(value)
+    if hit:
+        raise ValueError(f"contains a control character ({hit.group()!r} at position "
+                         f"{hit.start() + 1}); use plain text")
+    return value
+
+
 class _Model(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True, strict=True, allow_inf_nan=False)
+
+    @field_validator("*", mode="after")
+    @classmethod
+    def _plain_text(cls, value: Any) -> Any:
+        if isinstance(value, str):
+            return _no_control(value)
+        if isinstance(value, list):
+            for item in value:
+                if isinstance(item, str):
+                    _no_control(item)
+        return value
 
 
 class BookMeta(_Model):
@@ -345,6 +369,9 @@ def _check(book: Book, source: str) -> None:
         )
     units: dict[str, str] = {}
     for name, spec in book.series.items():
+        if _CONTROL_CHARS.search(name):
+            raise InputError("series name contains a control character; use plain text",
+                             file=source, key="series")
         key = f"series.{name}.unit"
         cur, _ = parse_price_unit(spec.unit, key=key, file=source)
         if cur != currency:

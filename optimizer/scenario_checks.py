@@ -20,10 +20,11 @@ SCENARIO_KEYS = ("name", "note", *_FLOATS, *_INTS, *_CHOICES, *_TABLES, "remove"
 EITHER_OR = (("shock_pct", "replay_worst"), ("participation", "participation_scale"))
 ESTIMATION_KEYS = ("horizon_days", "window", "estimator", "sampling")
 MAX_SCENARIOS = 100_000
-#: Plausible upper bounds of scenario numbers, checked at the door (a scale of 1e4 already turns
-#: a desk's limits into no limits; beyond, products overflow in the solver).
-MAX_VALUE = {**dict.fromkeys(_SCALES, 1e4), "participation": 1.0, "margin_budget": MAX_MONEY,
-             "horizon_days": MAX_DAYS, "window": 1_000_000}
+#: Plausible upper bounds of scenario numbers, checked at the door (a scale of 1e6 turns a
+#: desk's limits into no limits; beyond, products overflow in the solver). Margins stay below
+#: 1e4 times the book's so the margin row keeps its precision next to the budget.
+MAX_VALUE = {**dict.fromkeys(_SCALES, 1e6), "margin_scale": 1e4, "participation": 1.0,
+             "margin_budget": MAX_MONEY, "horizon_days": MAX_DAYS, "window": 1_000_000}
 MAX_SHOCK_PCT = 1e4
 
 
@@ -139,6 +140,9 @@ class _Checker:
             if key in ("name", "note"):
                 if not isinstance(v, str) or not v.strip():
                     self.fail(where, key, f"must be non-empty text, got {shorten(v)}")
+                if any(ord(ch) < 32 or 127 <= ord(ch) < 160 for ch in v):
+                    self.fail(where, key, "contains a control character (newline, tab, "
+                                          "escape…); use plain text")
                 out[key] = v.strip()
             elif key in _TABLES:
                 out[key] = self.table(where, key, v)
