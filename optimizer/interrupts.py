@@ -62,8 +62,9 @@ def handle_signals() -> Iterator[None]:
     try:
         yield
     finally:
-        for s, h in old.items():
-            signal.signal(s, h)
+        if not _received:  # after a signal the handlers stay: the run is ending, and a late
+            for s, h in old.items():  # second signal must not cut its last line short
+                signal.signal(s, h)
 
 
 def _parent_death_signal() -> None:
@@ -91,7 +92,7 @@ def worker_init() -> None:
 
 def stop_pool(pool) -> None:
     """End a ``ProcessPoolExecutor``'s workers now (running tasks are dropped) and shut it down."""
-    procs = list(getattr(pool, "_processes", {}) .values())
+    procs = list((getattr(pool, "_processes", None) or {}).values())
     for p in procs:
         with contextlib.suppress(Exception):
             p.terminate()
