@@ -209,3 +209,14 @@ def test_bad_scenario_files(tmp_path, old, new, names):
     result = run_cli(["sweep", book, scen, "--workers", "1", "--csv", out])
     assert_one_clean_line(result, 2, names=names)
     assert not out.exists()
+
+
+@pytest.mark.parametrize("content", [b"", b"contract,last_trade\nX,2025-13-45\n"],
+                         ids=["empty-xlsx", "csv-as-xlsx"])
+def test_expiries_file_that_is_not_a_workbook(tmp_path, content):
+    text = BOOK_TEXT.replace('prices = "prices.csv"',
+                             'prices = "prices.csv"\nformat = "contracts"\n\n[data.roll]\n'
+                             'expiries = "expiries.xlsx"')
+    book = write_book(tmp_path, text)
+    (tmp_path / "expiries.xlsx").write_bytes(content)
+    _solve_fails(book, "expiries.xlsx")
