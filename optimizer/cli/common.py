@@ -37,9 +37,16 @@ def check_outputs(targets: dict[str, Path | None], inputs: list[Path | str]) -> 
     """Refuse unusable output paths before any work starts (``{option: path}``)."""
     from data_adapters.output import check_target
 
+    seen: dict[Path, str] = {}
     for option, path in targets.items():
-        if path is not None:
-            check_target(path, inputs=inputs, option=option)
+        if path is None:
+            continue
+        check_target(path, inputs=inputs, option=option)
+        key = Path(path).resolve()
+        if key in seen:
+            raise InputError(f"is also the {seen[key]} output; give each output its own file",
+                             file=str(path), key=option)
+        seen[key] = option
 
 
 def book_inputs(book: Path, *more: Path | None) -> list[Path]:

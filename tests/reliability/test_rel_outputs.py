@@ -151,3 +151,13 @@ def test_rich_markup_in_ids_neither_crashes_nor_leaves_a_file(tmp_path):
     result = run_cli(["solve", book, "--trades", out])
     assert result.exit_code == 0, result.output
     assert "[/][bold]x" in result.stdout
+
+
+def test_two_outputs_of_one_run_may_not_share_a_file(tmp_path):
+    book = write_book(tmp_path)
+    scen = tmp_path / "scenarios.toml"
+    scen.write_text(SCENARIO_TEXT)
+    same = tmp_path / "out.png"
+    assert_one_clean_line(run_cli(["sweep", book, scen, "--csv", same, "--png", same]), 2,
+                          names="--png")
+    assert not same.exists()
