@@ -209,3 +209,39 @@ def test_backtest_stops_on_sigint(tmp_path):
     assert rc == 130, err
     assert "Traceback" not in err and len(err.strip().splitlines()) == 1
     assert not png.exists()
+
+
+_SERIAL_SWEEP = textwrap.dedent("""
+    import sys
+    import optimizer.integer_native as native
+    import optimizer.sweep as sweep
+    real = sweep.solve_qp
+    def announced(*a, **k):
+        print("ready", flush=True)
+        return real(*a, **k)
+    sweep.solve_qp = announced
+    from optimizer.cli.app import main
+    sys.argv = ["basiswise", *sys.argv[1:]]
+    try:
+        main()
+    finally:
+        print("search stopped by the interrupt:", native.last_interrupt, flush=True)
+""")
+
+
+def test_sigint_reaches_a_long_search_on_a_small_book(tmp_path):
+    # the demo book (11 instruments, searched without a helper thread at first) at a limit
+    # scale whose search runs to its time limit: the interrupt must stop the search itself
+    book, _ = _demo_sweep(tmp_path)
+    one = tmp_path / "one.toml"
+    one.write_text('[sweep]\ninclude_base = false\n\n[[scenario]]\nname = "hard"\n'
+                   "limit_scale = 0.71\n")
+    proc = _start(_SERIAL_SWEEP, "sweep", book, one, "--workers", "1", "--time-limit", "100",
+                  "--json")
+    _wait_for_line(proc, "ready")
+    time.sleep(1.0)
+    proc.send_signal(signal.SIGINT)
+    rc, out, err = _finish(proc)
+    assert rc == 130, err
+    assert "search stopped by the interrupt: (True," in out, out
+    assert len(err.strip().splitlines()) == 1 and "Traceback" not in err
