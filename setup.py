@@ -5,8 +5,8 @@ from setuptools import Extension, setup
 setup(
     ext_modules=[
         Extension(
-            "optimizer.native._levels",
-            sources=["optimizer/native/levels.c", "optimizer/native/active_set.c"],
+            "basiswise.optimizer.solvers.native._levels",
+            sources=["optimizer/solvers/native/levels.c", "optimizer/solvers/native/active_set.c"],
             extra_compile_args=["-O2"],
             optional=True,  # without a C compiler the pure-Python search runs instead
         )

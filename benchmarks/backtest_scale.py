@@ -2,8 +2,8 @@
 
 Measures, each configuration in a fresh subprocess (clean peak memory):
 
-* wall time of :func:`optimizer.backtest.run_backtest` (whole contracts by ``round`` and, unless
-  ``--quick``, by ``exact``),
+* wall time of :func:`optimizer.backtest.engine.run_backtest` (whole contracts by ``round`` and,
+  unless ``--quick``, by ``exact``),
 * peak resident memory of the process (``resource.getrusage``, ru_maxrss),
 * the ratio against the baseline that rebuilds the cvxpy problem at every solve
   (``reuse=False``) instead of re-using its Parameters (DPP).
@@ -29,14 +29,13 @@ ESTIMATORS = ["sample", "ledoit-wolf", "oas", "constant-correlation", "ewma"]
 
 def one(config: dict) -> dict:
     """Run one configuration in this process and measure it."""
-    sys.path.insert(0, str(ROOT))
-    from optimizer.api import prepare
-    from optimizer.backtest import run_backtest
+    from basiswise.optimizer.backtest.engine import run_backtest
+    from basiswise.optimizer.pipeline import prepare
 
     prep = prepare(BOOK)
     t0 = time.perf_counter()
     if config.get("workers", 1) > 1:
-        from optimizer.backtest_parallel import run_backtest_parallel
+        from basiswise.optimizer.backtest.parallel import run_backtest_parallel
 
         res = run_backtest_parallel(prep, step=20, estimators=config["estimators"],
                                     method=config["method"], reuse=config["reuse"],

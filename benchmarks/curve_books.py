@@ -7,9 +7,10 @@ about 0.3–0.6). Volatility falls with the month (near months move most). Expos
 physical series: each is a blend of two neighbouring months of one product plus basis noise, so
 every hedge is a cross hedge.
 
-The problem is built directly in normalised units (:class:`optimizer.qp.HedgeQP`): with the series
-covariance ``Σ`` (futures first, then exposure series), exposure quantities ``e`` and contract sizes
-on the futures series, ``Σ / v₀ = UᵀU`` (Cholesky, ``v₀ = eᵀΣe``), ``M = U Cᵀ`` and ``u = U e``.
+The problem is built directly in normalised units (:class:`optimizer.problem.qp.HedgeQP`): with the
+series covariance ``Σ`` (futures first, then exposure series), exposure quantities ``e`` and
+contract sizes on the futures series, ``Σ / v₀ = UᵀU`` (Cholesky, ``v₀ = eᵀΣe``), ``M = U Cᵀ`` and
+``u = U e``.
 
 Regimes: ``"small"`` scales exposures so that the median unconstrained hedge is 2 contracts per
 instrument (limits ±3 to ±6); ``"large"`` so that it is 80 (limits 0.6–1.5 × the unconstrained
@@ -22,7 +23,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from optimizer.qp import HedgeQP
+from basiswise.optimizer.problem.qp import HedgeQP
 
 __all__ = ["curve_book", "sizes_for"]
 

@@ -3,8 +3,8 @@
 Run ``python benchmarks/integer_scale.py`` (full, several minutes) or ``--quick`` (smoke run).
 For n = 8, 16, 24, 48 curve-structured books (:mod:`curve_books`) in the small-count and the
 large-count regime it prints, per book: wall time and residual variance (fraction of unhedged) of
-``optimizer.integer.solve_exact``, of cvxpy+SCIP under a time limit, of naive rounding and of the
-continuous relaxation, the speed-up against SCIP and the objective ratio against rounding. For
+``optimizer.solvers.exact.solve_exact``, of cvxpy+SCIP under a time limit, of naive rounding and of
+the continuous relaxation, the speed-up against SCIP and the objective ratio against rounding. For
 n = 48 the median over several seeds is printed as well. All times are wall-clock seconds on this
 machine; the relaxation time is included in the exact solver's time. At the end one exact solve
 of the demo book (``scenarios/demo/book.toml``, group limits and a margin budget) is timed, as the
@@ -21,14 +21,13 @@ from pathlib import Path
 
 import numpy as np
 
-sys.path.insert(0, str(Path(__file__).resolve().parent))
-sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+sys.path.insert(0, str(Path(__file__).resolve().parent))  # curve_books; basiswise is installed
 
 from curve_books import curve_book  # noqa: E402
 
-from optimizer.formulation import solve_relaxed, solve_scip  # noqa: E402
-from optimizer.integer import solve_exact  # noqa: E402
-from optimizer.rounding import naive_round  # noqa: E402
+from basiswise.optimizer.problem.formulation import solve_relaxed, solve_scip  # noqa: E402
+from basiswise.optimizer.solvers.exact import solve_exact  # noqa: E402
+from basiswise.optimizer.solvers.rounding import naive_round  # noqa: E402
 
 
 def run_one(n: int, regime: str, seed: int, exact_limit: float, scip_limit: float,
@@ -73,7 +72,7 @@ def demo_book_timing(repeats: int = 7) -> dict:
     """Median wall time and nodes of one exact solve of the demo book, as the backtest runs it."""
     from dataclasses import replace
 
-    from optimizer.api import model_of, prepare
+    from basiswise.optimizer.pipeline import model_of, prepare
 
     book = Path(__file__).resolve().parents[1] / "scenarios" / "demo" / "book.toml"
     qp = replace(model_of(prepare(book)).qp, offset=0.0)
@@ -130,7 +129,7 @@ def main(argv: list[str] | None = None) -> int:
     exact_limit = 5.0 if args.quick else args.exact_limit
     scip_limit = 5.0 if args.quick else args.scip_limit
     seeds48 = 1 if args.quick else args.seeds
-    from optimizer.integer_native import native_search
+    from basiswise.optimizer.solvers.native_search import native_search
 
     print(f"exact time limit {exact_limit:g} s, SCIP time limit {scip_limit:g} s; "
           "variances are fractions of the unhedged variance; * = rounding breaks a limit; "

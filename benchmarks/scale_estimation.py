@@ -16,11 +16,11 @@ import tracemalloc
 import numpy as np
 import pandas as pd
 
-from data_adapters.book import Book
-from optimizer.changes import horizon_changes
-from optimizer.covariance import estimate_covariance
-from optimizer.model import build_hedge_model
-from optimizer.solve import solve_qp
+from basiswise.data_adapters.book import Book
+from basiswise.optimizer.estimation.changes import horizon_changes
+from basiswise.optimizer.estimation.covariance import estimate_covariance
+from basiswise.optimizer.problem.model import build_hedge_model
+from basiswise.optimizer.solvers.dispatch import solve_qp
 
 
 def synthetic(n_exp: int, n_ins: int, days: int, seed: int = 5):

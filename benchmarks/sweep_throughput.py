@@ -27,18 +27,18 @@ from pathlib import Path
 
 import numpy as np
 
-from data_adapters.book import load_book
-from optimizer.scenarios import parse_scenarios
-from optimizer.sweep import SweepRunner, _mp_context, run_sweep
+from basiswise.data_adapters.book import load_book
+from basiswise.optimizer.sweeps.runner import SweepRunner, _mp_context, run_sweep
+from basiswise.optimizer.sweeps.scenario_file import parse_scenarios
 
 
 def demo_book() -> Path:
-    from scenarios import demo_book_path
+    from basiswise.scenarios import demo_book_path
 
     path = Path(demo_book_path())
     if path.is_file():
         return path
-    from scenarios.generate_demo import write_demo
+    from basiswise.scenarios.generate_demo import write_demo
 
     return write_demo(Path(tempfile.mkdtemp()) / "demo")
 

@@ -17,8 +17,8 @@ _WHERE = {
 
 def __getattr__(name: str):
     if name in _WHERE:
-        return getattr(import_module(f"data_adapters.{_WHERE[name]}"), name)
-    raise AttributeError(f"module 'data_adapters' has no attribute {name!r}")
+        return getattr(import_module(f"{__name__}.{_WHERE[name]}"), name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 __all__ = [

@@ -17,10 +17,10 @@ from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, field_validator
 
-from data_adapters.boundary import input_boundary
-from data_adapters.errors import InputError, from_validation_error
-from data_adapters.toml_file import read_toml
-from data_adapters.units import parse_price_unit, units_in_price_unit
+from basiswise.data_adapters.boundary import input_boundary
+from basiswise.data_adapters.errors import InputError, from_validation_error
+from basiswise.data_adapters.toml_file import read_toml
+from basiswise.data_adapters.units import parse_price_unit, units_in_price_unit
 
 __all__ = [
     "Book",

@@ -1,11 +1,11 @@
 """One error boundary per input path: every failure while reading a file becomes an InputError.
 
-Readers check what they know how to check and raise :class:`~data_adapters.errors.InputError`
-with the row, column or key. Whatever else goes wrong inside a reader — a library's parse error,
-a file that is not what its suffix says, an over-long path, recursion, a time-zone clash, an
-overflow — is caught here at the edge of the reader and reported as one line naming the file, so
-the command line never shows a traceback for bad input. Interrupts (``KeyboardInterrupt``,
-``SystemExit``) pass through untouched.
+Readers check what they know how to check and raise
+:class:`~basiswise.data_adapters.errors.InputError` with the row, column or key. Whatever else
+goes wrong inside a reader — a library's parse error, a file that is not what its suffix says, an
+over-long path, recursion, a time-zone clash, an overflow — is caught here at the edge of the
+reader and reported as one line naming the file, so the command line never shows a traceback for
+bad input. Interrupts (``KeyboardInterrupt``, ``SystemExit``) pass through untouched.
 """
 
 from __future__ import annotations
@@ -18,7 +18,7 @@ from collections.abc import Iterator, Mapping
 from pathlib import Path
 from typing import Any
 
-from data_adapters.errors import InputError
+from basiswise.data_adapters.errors import InputError
 
 __all__ = ["MAX_DEPTH", "check_depth", "input_boundary", "plain_reason", "safe_exists"]
 

@@ -25,8 +25,8 @@ from pathlib import Path
 
 import pandas as pd
 
-from data_adapters.boundary import plain_reason
-from data_adapters.errors import InputError
+from basiswise.data_adapters.boundary import plain_reason
+from basiswise.data_adapters.errors import InputError
 
 __all__ = ["atomic_path", "atomic_write", "check_target", "neutralise_cells", "write_csv_atomic",
            "write_text_atomic"]

@@ -29,8 +29,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from data_adapters.boundary import input_boundary
-from data_adapters.errors import InputError, shorten, summarise
+from basiswise.data_adapters.boundary import input_boundary
+from basiswise.data_adapters.errors import InputError, shorten, summarise
 
 __all__ = ["MISSING_MARKERS", "PricePanel", "check_positive", "load_prices", "read_prices"]
 
@@ -479,7 +479,7 @@ def load_prices(book) -> PricePanel:
     """Read the prices of a :class:`~data_adapters.book.Book` (its ``[data]`` and series)."""
     d = book.data
     if d.format == "contracts":
-        from data_adapters.rolls import load_contract_prices  # rolls imports this module
+        from basiswise.data_adapters.rolls import load_contract_prices  # rolls imports this module
 
         return load_contract_prices(book)
     source_path = book.prices_path

@@ -18,9 +18,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from data_adapters.boundary import input_boundary
-from data_adapters.errors import InputError
-from data_adapters.prices import (
+from basiswise.data_adapters.boundary import input_boundary
+from basiswise.data_adapters.errors import InputError
+from basiswise.data_adapters.prices import (
     PricePanel,
     _check_gaps,
     _parse_dates,

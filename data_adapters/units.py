@@ -48,7 +48,7 @@ import re
 
 import pint
 
-from data_adapters.errors import InputError
+from basiswise.data_adapters.errors import InputError
 
 __all__ = [
     "TRADE_UNITS",

@@ -1,0 +1,1 @@
+"""The optimizer: estimation → problem → solvers → results, plus sweeps and backtests."""

@@ -1,4 +1,4 @@
-"""The demo book and its invented price history (see :mod:`scenarios.generate_demo`)."""
+"""The demo book and its invented price history (see :mod:`basiswise.scenarios.generate_demo`)."""
 
 from __future__ import annotations
 
@@ -13,6 +13,6 @@ def demo_book_path() -> Path:
     Returns
     -------
     pathlib.Path
-        Absolute path; regenerate the files with ``python -m scenarios.generate_demo``.
+        Absolute path; regenerate the files with ``python -m basiswise.scenarios.generate_demo``.
     """
     return Path(__file__).resolve().parent / "demo" / "book.toml"

@@ -3,32 +3,22 @@
 from __future__ import annotations
 
 import json
-import shutil
 from pathlib import Path
 
 import pandas as pd
 import pytest
 from typer.testing import CliRunner
 
-from optimizer.cli.app import app
-from scenarios import demo_book_path
+from basiswise.cli.app import app
+
+from bw_testkit import copy_demo
 
 runner = CliRunner()
 
 
 @pytest.fixture(scope="module")
 def demo_folder(tmp_path_factory) -> Path:
-    folder = tmp_path_factory.mktemp("demo")
-    src = demo_book_path().parent
-    for name in ("book.toml", "prices.csv"):
-        shutil.copyfile(src / name, folder / name)
-    return folder
-
-
-def _copy(demo_folder: Path, tmp_path: Path) -> Path:
-    for name in ("book.toml", "prices.csv"):
-        shutil.copyfile(demo_folder / name, tmp_path / name)
-    return tmp_path / "book.toml"
+    return copy_demo(tmp_path_factory.mktemp("demo")).parent
 
 
 def test_demo_prints_tables_and_writes_trades(tmp_path):
@@ -102,7 +92,7 @@ BAD_BOOKS = [
 
 @pytest.mark.parametrize("what,edit,words", BAD_BOOKS, ids=[b[0] for b in BAD_BOOKS])
 def test_bad_book_gives_one_message_and_no_file(demo_folder, tmp_path, what, edit, words):
-    book = _copy(demo_folder, tmp_path)
+    book = copy_demo(tmp_path)
     _edit(book, *edit)
     out = tmp_path / "trades.csv"
     res = runner.invoke(app, ["solve", str(book), "--trades", str(out)])
@@ -115,7 +105,7 @@ def test_bad_book_gives_one_message_and_no_file(demo_folder, tmp_path, what, edi
 
 
 def test_min_above_max(demo_folder, tmp_path):
-    book = _copy(demo_folder, tmp_path)
+    book = copy_demo(tmp_path)
     text = book.read_text()
     start = text.index("\nposition_limit") + 1
     end = text.index("\n", start)
@@ -137,7 +127,7 @@ PRICE_EDITS = [
 
 @pytest.mark.parametrize("what,fn,words", PRICE_EDITS, ids=[p[0] for p in PRICE_EDITS])
 def test_bad_prices_give_one_message_and_no_file(demo_folder, tmp_path, what, fn, words):
-    book = _copy(demo_folder, tmp_path)
+    book = copy_demo(tmp_path)
     _edit_prices(tmp_path / "prices.csv", fn)
     out = tmp_path / "trades.csv"
     res = runner.invoke(app, ["solve", str(book), "--trades", str(out)])

@@ -8,9 +8,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from data_adapters.errors import InputError
-from scenarios import demo_book_path
-from scenarios import generate_demo as gd
+from basiswise.data_adapters.errors import InputError
+from basiswise.scenarios import demo_book_path
+from basiswise.scenarios import generate_demo as gd
 
 DEMO = demo_book_path().parent
 
@@ -183,15 +183,15 @@ def test_book_exercises_unit_conversion(book):
 
 
 def test_load_book_accepts_the_demo_book():
-    load_book = pytest.importorskip("data_adapters.book").load_book
+    load_book = pytest.importorskip("basiswise.data_adapters.book").load_book
     parsed = load_book(demo_book_path())
     assert len(parsed.exposures) == 9 and len(parsed.instruments) == 11
     assert parsed.prices_path.resolve() == (DEMO / "prices.csv").resolve()
 
 
 def test_load_prices_accepts_the_demo_prices():
-    load_book = pytest.importorskip("data_adapters.book").load_book
-    load_prices = pytest.importorskip("data_adapters.prices").load_prices
+    load_book = pytest.importorskip("basiswise.data_adapters.book").load_book
+    load_prices = pytest.importorskip("basiswise.data_adapters.prices").load_prices
     panel = load_prices(load_book(demo_book_path()))
     assert panel.prices.shape == (2600, 20)  # every generated series is used, no dropped date
     assert panel.dropped_rows == 0

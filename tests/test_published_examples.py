@@ -6,8 +6,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from optimizer.api import model_of, prepare, solve_book, solve_model
-from tests.helpers import book_dict, changes_with_moments, make_book, write_wide
+from basiswise.optimizer.pipeline import model_of, prepare, solve_book, solve_model
+
+from bw_testkit import book_dict, changes_with_moments, make_book, write_wide
 
 
 def _single_cross_hedge_book(tmp_path):

@@ -11,10 +11,10 @@ import numpy as np
 import pytest
 from rel_kit import SCENARIO_TEXT, assert_one_clean_line, die_at_start, run_cli, write_book
 
-import optimizer.integer as integer
-import optimizer.integer_native as native
-from optimizer.api import model_of, prepare, solve_model
-from optimizer.formulation import FormulationResult, SolverFailure
+import basiswise.optimizer.solvers.exact as integer
+import basiswise.optimizer.solvers.native_search as native
+from basiswise.optimizer.pipeline import model_of, prepare, solve_model
+from basiswise.optimizer.problem.formulation import FormulationResult, SolverFailure
 
 
 @pytest.fixture
@@ -30,10 +30,11 @@ def test_compiled_search_missing_falls_back_to_the_same_python_answer(book, monk
     reference = _solve(book)
     monkeypatch.setattr(native, "_lib", None)
     monkeypatch.setattr(native, "_tried", False)
-    import optimizer.native
+    import basiswise.optimizer.solvers.native
 
-    monkeypatch.delattr(optimizer.native, "_levels", raising=False)
-    monkeypatch.setitem(sys.modules, "optimizer.native._levels", None)  # import fails
+    monkeypatch.delattr(basiswise.optimizer.solvers.native, "_levels", raising=False)
+    # the built extension cannot be imported
+    monkeypatch.setitem(sys.modules, "basiswise.optimizer.solvers.native._levels", None)
     monkeypatch.setattr(native, "_compile", lambda: None)  # and no compiler either
     assert not native.native_search()
     fallback = _solve(book)
@@ -91,9 +92,9 @@ def test_clarabel_failing_is_a_clean_error_not_no_hedge(book, monkeypatch):
 def test_a_worker_dying_in_a_sweep_is_finished_in_the_main_process(book):
     import tomllib
 
-    from data_adapters.book import load_book
-    from optimizer.scenarios import parse_scenarios
-    from optimizer.sweep import run_sweep
+    from basiswise.data_adapters.book import load_book
+    from basiswise.optimizer.sweeps.runner import run_sweep
+    from basiswise.optimizer.sweeps.scenario_file import parse_scenarios
 
     scs = parse_scenarios(tomllib.loads(SCENARIO_TEXT), load_book(book))
     serial = run_sweep(book, scs, workers=1)
@@ -109,9 +110,9 @@ def test_a_worker_dying_in_a_sweep_is_finished_in_the_main_process(book):
 
 
 def test_a_worker_dying_in_a_backtest_is_finished_in_the_main_process(monkeypatch):
-    import optimizer.backtest_parallel as bp
-    from optimizer.backtest import run_backtest
-    from scenarios import demo_book_path
+    import basiswise.optimizer.backtest.parallel as bp
+    from basiswise.optimizer.backtest.engine import run_backtest
+    from basiswise.scenarios import demo_book_path
 
     kw = dict(step=240, method="round", window=300, strategies=["unhedged", "joint-whole"])
     ests = ["sample", "ledoit-wolf"]

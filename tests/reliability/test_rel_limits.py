@@ -15,16 +15,16 @@ def test_a_sweep_beyond_the_stated_size_needs_yes(tmp_path):
 
 
 def test_yes_skips_the_question():
-    from optimizer.cli import sweep_cmd
+    from basiswise.cli import sweep_cmd
 
     sweep_cmd._confirm_size(10_000, 30.0, 2, yes=True)  # returns without asking or failing
     sweep_cmd._confirm_size(sweep_cmd.CONFIRM_ABOVE, 30.0, 1, yes=False)
 
 
 def test_each_scenario_stops_at_its_time_limit():
-    from optimizer.scenarios import Scenario
-    from optimizer.sweep import run_sweep
-    from scenarios import demo_book_path
+    from basiswise.optimizer.sweeps.runner import run_sweep
+    from basiswise.optimizer.sweeps.scenario_file import Scenario
+    from basiswise.scenarios import demo_book_path
 
     # this limit scale leaves fractional limits that make the demo's search long (about 30 s
     # here); with a short limit the scenario reports time-limited with its true gap

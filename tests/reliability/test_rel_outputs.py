@@ -16,7 +16,7 @@ from rel_kit import (
     write_book,
 )
 
-from data_adapters.output import atomic_write, neutralise_cells, write_csv_atomic
+from basiswise.data_adapters.output import atomic_write, neutralise_cells, write_csv_atomic
 
 
 @pytest.mark.parametrize("which", ["book.toml", "prices.csv"])
@@ -41,7 +41,7 @@ def test_report_and_sweep_refuse_their_inputs(tmp_path):
 
 def test_output_folder_is_checked_before_any_work(tmp_path, monkeypatch):
     book = write_book(tmp_path)
-    import optimizer.api as api
+    import basiswise.optimizer.pipeline as api
 
     def must_not_run(*a, **k):  # the check comes first: no solve is started
         raise AssertionError("solved before checking the output folder")
@@ -56,7 +56,7 @@ def test_a_failure_while_showing_the_result_writes_no_trade_list(tmp_path, monke
     book = write_book(tmp_path)
     out = tmp_path / "trades.csv"
     out.write_text("yesterday's list\n")
-    import optimizer.cli.tables as tables
+    import basiswise.cli.tables as tables
 
     def broken(*a, **k):
         raise RuntimeError("renderer broke")

@@ -18,9 +18,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from rel_kit import BOOK_TEXT, SCENARIO_TEXT, toml_document, toml_value, write_book
 
-from data_adapters.book import Book, load_book
-from data_adapters.errors import InputError
-from data_adapters.prices import read_prices
+from basiswise.data_adapters.book import Book, load_book
+from basiswise.data_adapters.errors import InputError
+from basiswise.data_adapters.prices import read_prices
 
 _N = int(os.environ.get("BASISWISE_HYPOTHESIS_EXAMPLES", "45"))
 BOUNDED = settings(max_examples=_N, deadline=None,
@@ -128,7 +128,7 @@ def test_random_csv_text_gives_a_clean_panel_or_input_error(tmp_path, body, head
                               "instrument_limits", "remove", "name", "estimator"]),
        value=values)
 def test_random_scenario_values_raise_only_input_error(tmp_path, where, value):
-    from optimizer.scenarios import load_scenarios
+    from basiswise.optimizer.sweeps.scenario_file import load_scenarios
 
     book = load_book(write_book(tmp_path))
     scen = tmp_path / "scenarios.toml"
@@ -201,7 +201,7 @@ def _prices(series: list[str], seed: int) -> pd.DataFrame:
 @FEW
 @given(spec=valid_books())
 def test_random_valid_books_solve_to_feasible_answers_that_recompute(tmp_path, spec):
-    from optimizer.api import model_of, prepare, solve_model
+    from basiswise.optimizer.pipeline import model_of, prepare, solve_model
 
     text, series, seed = spec
     path = write_book(tmp_path, text, _prices(series, seed))

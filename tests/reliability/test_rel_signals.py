@@ -33,8 +33,8 @@ _HARD = textwrap.dedent(f"""
 """)
 
 _SEARCH = _HARD + textwrap.dedent("""
-    from optimizer.interrupts import exit_code, handle_signals
-    from optimizer.solve import solve_qp
+    from basiswise.optimizer.interrupts import exit_code, handle_signals
+    from basiswise.optimizer.solvers.dispatch import solve_qp
     import contextlib
     guard = handle_signals() if sys.argv[1] == "guarded" else contextlib.nullcontext()
     try:
@@ -50,14 +50,14 @@ _SEARCH = _HARD + textwrap.dedent("""
 # The command line, with the hard search run first inside its solve (the stand-in for a book
 # whose search is long).
 _CLI = _HARD + textwrap.dedent("""
-    import optimizer.api as api
+    import basiswise.optimizer.pipeline as api
     real = api.solve_qp
     def slow(qp, method="exact", **kw):
         print("ready", flush=True)
         real(HARD, "exact", time_limit=120)
         return real(qp, method, **kw)
     api.solve_qp = slow
-    from optimizer.cli.app import main
+    from basiswise.cli.app import main
     sys.argv = ["basiswise", *sys.argv[1:]]
     main()
 """)
@@ -123,7 +123,7 @@ def test_solve_command_stops_with_one_line_and_keeps_the_old_trade_list(tmp_path
 def _demo_sweep(tmp_path: Path) -> tuple[Path, Path]:
     import shutil
 
-    from scenarios import demo_book_path
+    from basiswise.scenarios import demo_book_path
 
     src = Path(demo_book_path()).parent
     for name in ("book.toml", "prices.csv"):
@@ -154,7 +154,7 @@ def _gone(pids: list[int]) -> bool:
     return False
 
 
-_SWEEP = "from optimizer.cli.app import main; import sys; sys.argv = ['basiswise', " \
+_SWEEP = "from basiswise.cli.app import main; import sys; sys.argv = ['basiswise', " \
          "*sys.argv[1:]]; main()"
 
 
@@ -186,13 +186,13 @@ def test_ctrl_c_to_the_process_group_prints_one_line(tmp_path):
 
 _BACKTEST = textwrap.dedent("""
     import sys
-    import optimizer.backtest as bt
+    import basiswise.optimizer.backtest.engine as bt
     real = bt.run_backtest
     def announced(*a, **k):
         print("ready", flush=True)
         return real(*a, **k)
     bt.run_backtest = announced
-    from optimizer.cli.app import main
+    from basiswise.cli.app import main
     sys.argv = ["basiswise", *sys.argv[1:]]
     main()
 """)
@@ -213,14 +213,14 @@ def test_backtest_stops_on_sigint(tmp_path):
 
 _SERIAL_SWEEP = textwrap.dedent("""
     import sys
-    import optimizer.integer_native as native
-    import optimizer.sweep as sweep
+    import basiswise.optimizer.solvers.native_search as native
+    import basiswise.optimizer.sweeps.runner as sweep
     real = sweep.solve_qp
     def announced(*a, **k):
         print("ready", flush=True)
         return real(*a, **k)
     sweep.solve_qp = announced
-    from optimizer.cli.app import main
+    from basiswise.cli.app import main
     sys.argv = ["basiswise", *sys.argv[1:]]
     try:
         main()

@@ -1,0 +1,1 @@
+"""The ``basiswise`` command line: typer commands over the Python API, rich tables."""

@@ -1,0 +1,1 @@
+"""Estimation: price changes over the hedge horizon and their covariance (with shrinkage)."""

@@ -1,1 +1,0 @@
-"""Compiled parts of the optimizer (see :mod:`optimizer.integer_native`)."""

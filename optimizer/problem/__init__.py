@@ -1,0 +1,1 @@
+"""The hedge problem: the book's model in normalised units, its limits, its cvxpy form, clashes."""

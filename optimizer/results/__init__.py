@@ -1,0 +1,1 @@
+"""Results: diagnostics, the hedge report, its Markdown and JSON forms, and the cautions."""

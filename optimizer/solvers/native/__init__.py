@@ -1,0 +1,1 @@
+"""Compiled parts of the optimizer (see :mod:`optimizer.solvers.native_search`)."""

@@ -1,0 +1,1 @@
+"""Sweeps: scenario files and their checks, the scenario runner, stress moves, the frontier."""
