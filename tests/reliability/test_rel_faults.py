@@ -124,3 +124,23 @@ def test_a_worker_dying_in_a_backtest_is_finished_in_the_main_process(monkeypatc
         [(r.strategy, r.estimator) for r in serial.runs]
     for a, b in zip(serial.runs, par.runs, strict=True):
         np.testing.assert_allclose(a.targets, b.targets, atol=1e-8)
+
+
+def test_a_search_moved_to_the_helper_thread_gives_the_same_certified_answer(monkeypatch):
+    # small books start with a direct call; one still running after the slice is searched again
+    # in the helper thread from its incumbent: same optimum, still certified
+    from basiswise.optimizer.sweeps.runner import SweepRunner
+    from basiswise.optimizer.sweeps.scenario_file import Scenario
+    from basiswise.scenarios import demo_book_path
+
+    runner = SweepRunner(demo_book_path(), time_limit=60.0)
+    sc = Scenario("cut", {"limit_scale": 0.11})  # a search of some 10^6 nodes
+    reference = runner.run(sc)
+    monkeypatch.setattr(native, "_DIRECT_SLICE", 1e-6)
+    threaded, real = [], native._interruptible
+    monkeypatch.setattr(native, "_interruptible",
+                        lambda *a: threaded.append(1) or real(*a))
+    moved = runner.run(sc)
+    assert threaded  # the continuation ran
+    assert reference.status == moved.status == "certified"
+    assert moved.contracts == reference.contracts
