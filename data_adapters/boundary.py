@@ -41,7 +41,7 @@ def plain_reason(exc: BaseException, what: str = "file") -> str:
             return f"{what} not found"
         if exc.errno == errno.EISDIR:
             return f"is a folder, not a {what}"
-        return f"cannot read the {what}: {exc.strerror or exc}"
+        return f"cannot use the {what}: {exc.strerror or exc}"
     if isinstance(exc, zipfile.BadZipFile | KeyError) and what.endswith("workbook"):
         return "not a readable Excel workbook (an .xlsx file is a zip archive; this one is " \
                "empty, truncated or of another kind — save it again, or as CSV)"

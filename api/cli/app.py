@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import contextlib
 import json
-import shutil
 import sys
 from importlib import resources
 from pathlib import Path
@@ -136,14 +135,20 @@ def demo(
     method: str = MethodOpt,
 ) -> None:
     """Write the invented demo book into a folder, solve it and write its trade list."""
-    folder.mkdir(parents=True, exist_ok=True)
-    src = resources.files("basiswise.scenarios") / "demo"
-    for name in ("book.toml", "prices.csv", "limit_cuts.toml"):
-        item = src / name
-        if item.is_file():
-            with resources.as_file(item) as f:
-                shutil.copyfile(f, folder / name)
-    out.print(f"demo book and invented prices written to [bold]{folder}[/]")
+    from basiswise.data_adapters.boundary import input_boundary
+    from basiswise.data_adapters.output import atomic_write
+
+    with input_boundary(folder, "demo folder", key="--out"):
+        folder.mkdir(parents=True, exist_ok=True)
+        src = resources.files("basiswise.scenarios") / "demo"
+        for name in ("book.toml", "prices.csv", "limit_cuts.toml"):
+            item = src / name
+            if item.is_file():
+                with resources.as_file(item) as f:
+                    data = f.read_bytes()
+                atomic_write(folder / name, lambda tmp, data=data: tmp.write_bytes(data))
+    out.print("demo book and invented prices written to ", end="")
+    out.print(str(folder), style="bold", markup=False, highlight=False)
     _solve_and_show(folder / "book.toml", method, folder / "trades.csv", False, 30.0)
 
 

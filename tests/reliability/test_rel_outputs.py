@@ -161,3 +161,9 @@ def test_two_outputs_of_one_run_may_not_share_a_file(tmp_path):
     assert_one_clean_line(run_cli(["sweep", book, scen, "--csv", same, "--png", same]), 2,
                           names="--png")
     assert not same.exists()
+
+
+def test_demo_into_a_path_below_a_file_is_one_clean_line(tmp_path):
+    (tmp_path / "afile").write_text("x")
+    assert_one_clean_line(run_cli(["demo", "--out", tmp_path / "afile" / "demo"]), 2,
+                          names="--out")
