@@ -151,6 +151,7 @@ def _read_table(path: Path, source: str, table: str = "prices") -> pd.DataFrame:
         elif suffix in (".sqlite", ".db"):
             frame = _read_sqlite(path, table, source)
         elif suffix == ".parquet":
+            _refuse_duplicate_columns(path, suffix, None, source)  # pyarrow fails on them
             frame = pd.read_parquet(path)
             if not isinstance(frame.index, pd.RangeIndex):  # e.g. a saved DatetimeIndex
                 frame = frame.reset_index()
@@ -196,7 +197,8 @@ def _header_names(path: Path, suffix: str, frame: pd.DataFrame) -> list[str]:
     return list(frame.columns)
 
 
-def _refuse_duplicate_columns(path: Path, suffix: str, frame: pd.DataFrame, source: str) -> None:
+def _refuse_duplicate_columns(path: Path, suffix: str, frame: pd.DataFrame | None,
+                              source: str) -> None:
     """Two columns of one name: which one is the price is a guess, so refuse the file."""
     names = _header_names(path, suffix, frame)
     seen: dict[str, int] = {}

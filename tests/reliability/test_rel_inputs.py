@@ -220,3 +220,26 @@ def test_expiries_file_that_is_not_a_workbook(tmp_path, content):
     book = write_book(tmp_path, text)
     (tmp_path / "expiries.xlsx").write_bytes(content)
     _solve_fails(book, "expiries.xlsx")
+
+
+@pytest.mark.parametrize("suffix", [".parquet", ".xlsx"])
+def test_duplicate_column_in_parquet_and_excel(tmp_path, suffix):
+    import pandas as pd
+
+    book = _with_prices(tmp_path, f"prices{suffix}")
+    frame = prices_frame().reset_index()
+    frame["date"] = frame["date"].dt.strftime("%Y-%m-%d")
+    frame.insert(3, "dup", frame["crude_m1"])
+    frame.columns = [*frame.columns[:3], "crude_m1", *frame.columns[4:]]
+    if suffix == ".parquet":
+        import pyarrow as pa
+        import pyarrow.parquet as pq
+
+        pq.write_table(pa.Table.from_arrays([pa.array(frame.iloc[:, j])
+                                             for j in range(frame.shape[1])],
+                                            names=list(frame.columns)), tmp_path / "prices.parquet")
+    else:
+        pd.DataFrame(frame.to_numpy(), columns=list(frame.columns)).to_excel(
+            tmp_path / "prices.xlsx", index=False)
+    line = _solve_fails(book, "crude_m1")
+    assert "twice" in line
