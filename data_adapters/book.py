@@ -10,13 +10,13 @@ third ``[[exposure]]`` table). Paths in the book are relative to the book's fold
 from __future__ import annotations
 
 import math
-import re
 from datetime import date
 from pathlib import Path
 from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, field_validator
 
+from basiswise.data_adapters import book_rules as rules
 from basiswise.data_adapters.boundary import input_boundary
 from basiswise.data_adapters.errors import InputError, from_validation_error
 from basiswise.data_adapters.toml_file import read_toml
@@ -36,30 +36,9 @@ __all__ = [
     "load_book",
 ]
 
-# Plausible ranges, checked at the door: beyond them a number is a typo or a unit slip, and
-# carried into the solver it would overflow (an int of 1e300 days) or lose all precision.
-MAX_CONTRACTS = 1e7        # positions, limits, current holdings (contracts)
-MAX_CONTRACT_SIZE = 1e9    # units of the series per contract
-MAX_QUANTITY = 1e12        # exposure quantity, in its unit
-MAX_MONEY = 1e15           # margin budget (currency)
-MAX_PER_CONTRACT = 1e9     # margin or cost per contract (currency)
-MAX_DAYS = 1000            # horizon, execution days (business days)
-
 Changes = Literal["relative", "log", "absolute"]
 Estimator = Literal["sample", "ledoit-wolf", "oas", "constant-correlation", "ewma"]
 Sampling = Literal["overlapping", "non-overlapping", "scaled"]
-
-
-_CONTROL_CHARS = re.compile(r"[\x00-\x1f\x7f-\x9f]")
-
-
-def _no_control(value: str) -> str:
-    """Text keys reach tables, CSV and Markdown: a newline or escape in them would forge lines."""
-    hit = _CONTROL_CHARS.search(value)
-    if hit:
-        raise ValueError(f"contains a control character ({hit.group()!r} at position "
-                         f"{hit.start() + 1}); use plain text")
-    return value
 
 
 class _Model(BaseModel):
@@ -68,13 +47,7 @@ class _Model(BaseModel):
     @field_validator("*", mode="after")
     @classmethod
     def _plain_text(cls, value: Any) -> Any:
-        if isinstance(value, str):
-            return _no_control(value)
-        if isinstance(value, list):
-            for item in value:
-                if isinstance(item, str):
-                    _no_control(item)
-        return value
+        return rules.plain_text(value)
 
 
 class BookMeta(_Model):
@@ -82,7 +55,7 @@ class BookMeta(_Model):
 
     name: str = Field(min_length=1)
     currency: str = Field("USD", pattern=r"^[A-Z]{3}$")
-    horizon_days: int = Field(20, ge=1, le=MAX_DAYS)
+    horizon_days: int = Field(20, ge=1, le=rules.MAX_DAYS)
     as_of: date | None = None
 
 
@@ -147,7 +120,7 @@ class Exposure(_Model):
 
     id: str = Field(min_length=1)
     series: str
-    quantity: float = Field(ge=-MAX_QUANTITY, le=MAX_QUANTITY)
+    quantity: float = Field(ge=-rules.MAX_QUANTITY, le=rules.MAX_QUANTITY)
     unit: str
     proxy: str | None = None
 
@@ -157,17 +130,17 @@ class Instrument(_Model):
 
     id: str = Field(min_length=1)
     series: str
-    contract_size: float = Field(gt=0.0, le=MAX_CONTRACT_SIZE)
+    contract_size: float = Field(gt=0.0, le=rules.MAX_CONTRACT_SIZE)
     unit: str
-    min_position: float | None = Field(None, ge=-MAX_CONTRACTS, le=MAX_CONTRACTS)
-    max_position: float | None = Field(None, ge=-MAX_CONTRACTS, le=MAX_CONTRACTS)
-    position_limit: float | None = Field(None, ge=0.0, le=MAX_CONTRACTS)
-    current: int = Field(0, ge=-MAX_CONTRACTS, le=MAX_CONTRACTS)
-    adv: float | None = Field(None, ge=0.0, le=MAX_CONTRACTS * 100)
+    min_position: float | None = Field(None, ge=-rules.MAX_CONTRACTS, le=rules.MAX_CONTRACTS)
+    max_position: float | None = Field(None, ge=-rules.MAX_CONTRACTS, le=rules.MAX_CONTRACTS)
+    position_limit: float | None = Field(None, ge=0.0, le=rules.MAX_CONTRACTS)
+    current: int = Field(0, ge=-rules.MAX_CONTRACTS, le=rules.MAX_CONTRACTS)
+    adv: float | None = Field(None, ge=0.0, le=rules.MAX_CONTRACTS * 100)
     max_participation: float = Field(0.1, gt=0.0, le=1.0)
-    execution_days: float = Field(1.0, gt=0.0, le=MAX_DAYS)
-    margin: float = Field(0.0, ge=0.0, le=MAX_PER_CONTRACT)
-    cost_per_contract: float = Field(0.0, ge=0.0, le=MAX_PER_CONTRACT)
+    execution_days: float = Field(1.0, gt=0.0, le=rules.MAX_DAYS)
+    margin: float = Field(0.0, ge=0.0, le=rules.MAX_PER_CONTRACT)
+    cost_per_contract: float = Field(0.0, ge=0.0, le=rules.MAX_PER_CONTRACT)
     contract_month: str | None = Field(None, pattern=r"^\d{4}-(0[1-9]|1[0-2])$")
 
     def bounds(self) -> tuple[float, float]:
@@ -184,7 +157,7 @@ class GroupLimit(_Model):
 
     id: str = Field(min_length=1)
     instruments: list[str] = Field(min_length=1)
-    limit: float = Field(gt=0.0, le=MAX_CONTRACTS * 100)
+    limit: float = Field(gt=0.0, le=rules.MAX_CONTRACTS * 100)
 
 
 class Constraints(_Model):
@@ -195,7 +168,7 @@ class Constraints(_Model):
     exposure points to are not capped (they serve as cross hedges only).
     """
 
-    margin_budget: float | None = Field(None, gt=0.0, le=MAX_MONEY)
+    margin_budget: float | None = Field(None, gt=0.0, le=rules.MAX_MONEY)
     hedge_only: bool = False
     no_over_hedge: bool = False
 
@@ -369,7 +342,7 @@ def _check(book: Book, source: str) -> None:
         )
     units: dict[str, str] = {}
     for name, spec in book.series.items():
-        if _CONTROL_CHARS.search(name):
+        if rules.CONTROL_CHARS.search(name):
             raise InputError("series name contains a control character; use plain text",
                              file=source, key="series")
         key = f"series.{name}.unit"

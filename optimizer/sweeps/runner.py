@@ -21,13 +21,10 @@ must see the same files (one machine, or a shared file system for a Dask cluster
 
 from __future__ import annotations
 
-import math
-import multiprocessing as mp
 import os
 import time
 from collections.abc import Callable
-from concurrent.futures import ProcessPoolExecutor, as_completed
-from concurrent.futures.process import BrokenProcessPool
+from concurrent.futures import ProcessPoolExecutor
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any
@@ -39,7 +36,6 @@ from basiswise.data_adapters.errors import InputError
 
 from ..estimation.changes import horizon_changes
 from ..estimation.covariance import estimate_covariance
-from ..interrupts import stop_pool, worker_init
 from ..pipeline import prepare
 from ..problem.conflicts import limit_conflicts
 from ..problem.model import HedgeModel, build_hedge_model, with_limits
@@ -47,6 +43,7 @@ from ..results.cautions import CAUTIONS
 from ..results.jsonsafe import finite
 from ..results.report import build_report
 from ..solvers.dispatch import METHODS, solve_qp
+from .local_pool import _chunks, _collect, run_local
 from .scenario_file import Scenario, ScenarioSet, apply_scenario
 from .stress import historical_moves, shock_vector, stress_pnl, worst_window
 
@@ -283,16 +280,6 @@ def _payload_ref(book: Any) -> dict:
     return {"path": str(Path(book).resolve())}
 
 
-def _chunks(items: list, parts: int) -> list[list]:
-    size = max(1, math.ceil(len(items) / parts))
-    return [items[i:i + size] for i in range(0, len(items), size)]
-
-
-def _mp_context():
-    """Fresh interpreters (``spawn``): measured faster per scenario here than forked ones."""
-    return mp.get_context("spawn")
-
-
 def _connect(client_cls, address: str):
     """A dask client for ``address``, or one clear error naming the address."""
     try:
@@ -300,43 +287,6 @@ def _connect(client_cls, address: str):
     except (OSError, ValueError, TimeoutError) as exc:
         raise InputError(f"cannot reach a dask scheduler at {address!r}: {exc}",
                          key="--scheduler") from None
-
-
-def _collect(finished, results: list, done: int, total: int, progress) -> int:
-    """Store each finished chunk's results in place; report progress; return the count done."""
-    for fut in finished:
-        for i, r in fut.result():
-            results[i] = r
-            done += 1
-        if progress:
-            progress(done, total)
-    return done
-
-
-def _local_pool(items, payload, workers, pool, results, total, progress) -> tuple[int, str]:
-    """Run the chunks on local worker processes; returns (done, note).
-
-    An interrupt ends the workers at once (none outlives the sweep). A worker that dies (killed,
-    out of memory) breaks the pool: the scenarios it left unsolved are then solved in this
-    process, and the note says so.
-    """
-    own = pool is None
-    ex = pool or ProcessPoolExecutor(max_workers=workers, mp_context=_mp_context(),
-                                     initializer=worker_init)
-    done, note = 0, ""
-    try:
-        futs = [ex.submit(_run_chunk, payload, ch) for ch in _chunks(items, 4 * workers)]
-        done = _collect(as_completed(futs), results, done, total, progress)
-    except BrokenProcessPool:
-        note = "a worker process died; its scenarios were solved in the main process"
-    except BaseException:
-        if own:
-            stop_pool(ex)
-        raise
-    finally:
-        if own:
-            ex.shutdown(wait=True, cancel_futures=True)
-    return done, note
 
 
 def run_sweep(book: Any, scenarios: ScenarioSet | list[Scenario], *, method: str = "exact",
@@ -404,7 +354,8 @@ def run_sweep(book: Any, scenarios: ScenarioSet | list[Scenario], *, method: str
                     client.close()
         else:
             mode = f"{workers} local processes"
-            done, note = _local_pool(items, payload, workers, pool, results, total, progress)
+            done, note = run_local(_run_chunk, items, payload, workers, pool, results, total,
+                                   progress)
             if note:
                 mode += f" ({note})"
                 for i, sc in enumerate(scs):

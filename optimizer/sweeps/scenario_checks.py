@@ -5,7 +5,8 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from basiswise.data_adapters.book import MAX_CONTRACTS, MAX_DAYS, MAX_MONEY, Book
+from basiswise.data_adapters.book import Book
+from basiswise.data_adapters.book_rules import MAX_CONTRACTS, MAX_DAYS, MAX_MONEY
 from basiswise.data_adapters.errors import InputError, shorten, summarise
 
 from ..estimation.changes import SAMPLINGS
