@@ -321,15 +321,30 @@ def _read_prices(p, source, format, series, date_column, series_column, price_co
         raise InputError(
             f"no date has a price for every series (dates with a price: {counts})", file=source
         )
+    missing = prices.loc[~complete]
     prices = prices.loc[complete].astype(float)
     file_rows = file_rows.loc[complete].astype(int)
-    _check_gaps(prices.index, file_rows, max_gap_days, source)
+    _check_gaps(prices.index, file_rows, max_gap_days, source, missing)
     prices.index.name = "date"
     file_rows.index.name = "date"
     return PricePanel(prices=prices, source=p, dropped_rows=dropped, file_rows=file_rows)
 
 
-def _check_gaps(index: pd.DatetimeIndex, file_rows: pd.DataFrame, max_gap: int, source: str):
+def _missing_between(missing: pd.DataFrame | None, a, b) -> str:
+    """`` — series x has no value on n dates in between`` when dropped rows caused a gap."""
+    if missing is None or missing.empty:
+        return ""
+    inside = missing.loc[(missing.index > a) & (missing.index < b)]
+    counts = inside.isna().sum()
+    names = [f"{s} ({int(n)} dates)" for s, n in counts.items() if n > 0]
+    if not names:
+        return ""
+    return ("; the rows in between were dropped because these series have no value there: "
+            + ", ".join(names))
+
+
+def _check_gaps(index: pd.DatetimeIndex, file_rows: pd.DataFrame, max_gap: int, source: str,
+                missing: pd.DataFrame | None = None):
     if len(index) < 2:
         return
     gaps = np.diff(index.to_numpy()).astype("timedelta64[D]").astype(int)
@@ -339,7 +354,8 @@ def _check_gaps(index: pd.DatetimeIndex, file_rows: pd.DataFrame, max_gap: int, 
         a, b = index[i].date(), index[i + 1].date()
         raise InputError(
             f"gap of {int(gaps[i])} calendar days between {a} and {b} exceeds "
-            f"max_gap_days = {max_gap} (after aligning series)",
+            f"max_gap_days = {max_gap} (after aligning series)"
+            + _missing_between(missing, index[i], index[i + 1]),
             file=source,
             row=int(file_rows.iloc[i + 1].iloc[0]),
         )

@@ -7,7 +7,9 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import calendar
+from dataclasses import dataclass, field, replace
+from datetime import date
 from pathlib import Path
 
 import pandas as pd
@@ -20,6 +22,7 @@ from .estimation.changes import horizon_changes
 from .estimation.covariance import estimate_covariance
 from .problem.conflicts import limit_conflicts
 from .problem.model import HedgeModel, build_hedge_model
+from .results.history_checks import history_warnings
 from .results.report import HedgeReport, build_report
 from .solvers.dispatch import solve_qp
 
@@ -30,11 +33,51 @@ class Prepared:
 
     book: Book
     panel: PricePanel
+    cut_notes: list[str] = field(default_factory=list)   # what the as_of date removed
+    overrides: dict = field(default_factory=dict)        # settings replaced by the caller
 
     @property
     def notes(self) -> list[str]:
         n = self.panel.dropped_rows
-        return [f"{n} price rows dropped to align series on common dates"] if n else []
+        dropped = [f"{n} price rows dropped to align series on common dates"] if n else []
+        return dropped + list(self.cut_notes)
+
+
+def _month_end(month: str) -> date:
+    y, m = (int(v) for v in month.split("-"))
+    return date(y, m, calendar.monthrange(y, m)[1])
+
+
+def _check_months(book: Book, day: date) -> None:
+    """Refuse an instrument whose contract month has ended by the decision date ``day``."""
+    for ins in book.instruments:
+        if ins.contract_month and _month_end(ins.contract_month) < day:
+            raise InputError(f"instrument {ins.id!r} has contract month {ins.contract_month}, "
+                             f"which has expired by as_of {day}; roll it to a live month or "
+                             "remove it", file=book.source,
+                             key=f"instrument {ins.id!r}.contract_month")
+
+
+def cut_at(panel: PricePanel, day: date, source: str) -> tuple[PricePanel, list[str]]:
+    """``panel`` as known on ``day``: later rows dropped, rolls re-applied up to it."""
+    stamp = pd.Timestamp(day)
+    end = int(panel.prices.index.searchsorted(stamp, side="right")) - 1
+    if end < 0:
+        raise InputError(f"as_of {day} is before the first price date "
+                         f"{panel.first_date.date()}", file=source, key="book.as_of")
+    later = len(panel.prices) - 1 - end
+    if later == 0:
+        last = panel.last_date.date()
+        stale = (day - last).days
+        return panel, ([f"the last price ({last}) is {stale} days before as_of {day}: current "
+                        "prices are that old"] if stale > 3 else [])
+    cut = replace(
+        panel, prices=panel.as_of(end),
+        file_rows=None if panel.file_rows is None else panel.file_rows.iloc[:end + 1],
+        held=None if panel.held is None else panel.held.iloc[:end + 1],
+        pnl=None if panel.pnl is None else panel.pnl.iloc[:end + 1])
+    return cut, [f"{later} price rows after as_of {day} ignored (prices run to "
+                 f"{panel.last_date.date()}; the last one used is {cut.last_date.date()})"]
 
 
 def prepare(book: Book | str | Path, **overrides) -> Prepared:
@@ -49,9 +92,13 @@ def prepare(book: Book | str | Path, **overrides) -> Prepared:
     if overrides:
         book = book.with_overrides(**overrides)
     panel = load_prices(book)
+    cut_notes: list[str] = []
+    if book.book.as_of is not None:
+        _check_months(book, book.book.as_of)
+        panel, cut_notes = cut_at(panel, book.book.as_of, book.source)
     if book.estimation.changes in ("relative", "log"):
         check_positive(panel, list(panel.prices.columns))
-    return Prepared(book, panel)
+    return Prepared(book, panel, cut_notes, overrides)
 
 
 def model_of(prep: Prepared, *, fractional: bool = False, prices=None, as_of=None) -> HedgeModel:
@@ -72,8 +119,19 @@ def model_of(prep: Prepared, *, fractional: bool = False, prices=None, as_of=Non
             raise InputError(f"as_of {as_of} is before the first price date "
                              f"{prep.panel.first_date.date()}", key="as_of")
         frame = prep.panel.as_of(end)
-    changes = horizon_changes(frame, horizon_days=book.book.horizon_days, kind=est.changes,
-                              sampling=est.sampling, window=est.window)
+    try:
+        changes = horizon_changes(frame, horizon_days=book.book.horizon_days, kind=est.changes,
+                                  sampling=est.sampling, window=est.window)
+    except InputError as exc:
+        if exc.file is not None or exc.key not in ("book.horizon_days", "estimation.window"):
+            raise
+        # the settings come from the book: name it, and both keys when they clash
+        both = exc.key == "book.horizon_days"
+        raise InputError(f"{exc.message} ([estimation] window = {est.window} rows, [book] "
+                         f"horizon_days = {book.book.horizon_days})" if both else exc.message,
+                         file=book.source, column=exc.column,
+                         key="estimation.window / book.horizon_days" if both else exc.key
+                         ) from None
     estimate = estimate_covariance(changes.values, est.estimator, ewma_lambda=est.ewma_lambda)
     return build_hedge_model(book, changes, estimate, fractional=fractional)
 
@@ -85,7 +143,7 @@ def solve_model(model: HedgeModel, method: str = "exact", *, time_limit: float =
     notes = list(notes or [])
     if not sol.ok:
         notes += [f"conflict: {c}" for c in limit_conflicts(model)]
-    return build_report(model, sol, notes)
+    return replace(build_report(model, sol, notes), warnings=history_warnings(model))
 
 
 def solve_book(book: Book | str | Path, method: str = "exact", *, time_limit: float = 30.0,
@@ -93,4 +151,8 @@ def solve_book(book: Book | str | Path, method: str = "exact", *, time_limit: fl
     """Hedge a book end to end: load, estimate, solve in whole contracts (by default), report."""
     prep = prepare(book, **overrides)
     model = model_of(prep, fractional=(method == "continuous"))
-    return solve_model(model, method, time_limit=time_limit, notes=prep.notes)
+    rep = solve_model(model, method, time_limit=time_limit, notes=prep.notes)
+    as_of = prep.book.book.as_of
+    return replace(rep, as_of=None if as_of is None else as_of.isoformat(),
+                   price_date=prep.panel.last_date.date().isoformat(),
+                   overrides=dict(prep.overrides))

@@ -9,16 +9,41 @@ from importlib import resources
 from pathlib import Path
 
 import typer
-from rich.table import Table
 
-from .common import EXIT_NO_HEDGE, book_inputs, check_outputs, err, fail, guarded, out
+from .common import (
+    EXIT_NO_HEDGE,
+    METHODS,
+    BookArg,
+    book_inputs,
+    check_outputs,
+    check_ranges,
+    err,
+    fail,
+    guarded,
+    out,
+)
+from .render import text
 
-app = typer.Typer(add_completion=False, no_args_is_help=True,
+app = typer.Typer(add_completion=False, no_args_is_help=True, rich_markup_mode=None,
                   help="Joint minimum-variance cross hedges in whole futures contracts.")
 
-BookArg = typer.Argument(..., help="Book file (TOML).", show_default=False, metavar="BOOK")
 MethodOpt = typer.Option("exact", "--method", "-m",
                          help="exact (whole contracts, proven) | round | continuous")
+JsonOpt = typer.Option(False, "--json", help="Print one JSON object on stdout.")
+EstimatorOpt = typer.Option(None, help="Override [estimation].estimator.")
+WindowOpt = typer.Option(None, help="Override [estimation].window (rows, at least 2).")
+HorizonOpt = typer.Option(None, help="Override [book].horizon_days (at least 1).")
+ChangesOpt = typer.Option(None, help="Override [estimation].changes.")
+SamplingOpt = typer.Option(None, help="Override [estimation].sampling.")
+TimeLimitOpt = typer.Option(30.0, help="Seconds allowed for the whole-contract search (> 0).")
+
+
+def _door(method: str, time_limit: float, window: int | None, horizon: int | None) -> None:
+    """Option values refused before any file is read."""
+    if method not in METHODS:
+        fail(f"unknown method '{method}'; valid: {', '.join(METHODS)}")
+    check_ranges(time_limit=(time_limit, 0, True), window=(window, 2, False),
+                 horizon=(horizon, 1, False))
 
 
 def _write_trades(report, path: Path) -> None:
@@ -32,8 +57,6 @@ def _solve_and_show(book, method, trades, as_json, time_limit, **overrides) -> N
 
     from .tables import print_report
 
-    if method not in ("exact", "round", "continuous"):
-        fail(f"unknown method '{method}'; valid: exact, round, continuous")
     if trades is not None and method == "continuous":
         fail("--trades needs whole contracts: use --method exact or round")
     check_outputs({"--trades": trades}, book_inputs(book))
@@ -51,16 +74,15 @@ def _solve_and_show(book, method, trades, as_json, time_limit, **overrides) -> N
     # everything is rendered before the trade list is written: a failure while showing the
     # result leaves no file behind
     if as_json:
-        text = json.dumps(report.to_dict(), indent=2)
+        payload = json.dumps(report.to_dict(), indent=2)
         if trades is not None:
             _write_trades(report, trades)
-        print(text)
+        print(payload)
     else:
         print_report(report, out)
         if trades is not None:
             _write_trades(report, trades)
-            out.print("trade list written to ", end="")
-            out.print(str(trades), style="bold", markup=False, highlight=False)
+            out.print(text(f"trade list written to {trades}"))
 
 
 @app.command()
@@ -68,16 +90,17 @@ def _solve_and_show(book, method, trades, as_json, time_limit, **overrides) -> N
 def solve(
     book: Path = BookArg,
     method: str = MethodOpt,
-    as_json: bool = typer.Option(False, "--json", help="Print one JSON object on stdout."),
+    as_json: bool = JsonOpt,
     trades: Path | None = typer.Option(None, "--trades", help="Write the trade list (CSV)."),
-    estimator: str | None = typer.Option(None, help="Override [estimation].estimator."),
-    window: int | None = typer.Option(None, help="Override [estimation].window (rows)."),
-    horizon: int | None = typer.Option(None, help="Override [book].horizon_days."),
-    changes: str | None = typer.Option(None, help="Override [estimation].changes."),
-    sampling: str | None = typer.Option(None, help="Override [estimation].sampling."),
-    time_limit: float = typer.Option(30.0, help="Seconds allowed for the whole-contract search."),
+    estimator: str | None = EstimatorOpt,
+    window: int | None = WindowOpt,
+    horizon: int | None = HorizonOpt,
+    changes: str | None = ChangesOpt,
+    sampling: str | None = SamplingOpt,
+    time_limit: float = TimeLimitOpt,
 ) -> None:
     """Solve the book's hedge and show it; optionally write the trade list."""
+    _door(method, time_limit, window, horizon)
     _solve_and_show(book, method, trades, as_json, time_limit, estimator=estimator,
                     window=window, horizon_days=horizon, changes=changes, sampling=sampling)
 
@@ -85,22 +108,11 @@ def solve(
 @app.command()
 @guarded
 def check(book: Path = BookArg) -> None:
-    """Validate a book and its prices without solving."""
-    from basiswise.optimizer.pipeline import prepare
+    """Validate a book and its prices without solving; warn about short history and limits
+    that cannot hold together."""
+    from .check_cmd import run_check
 
-    prep = prepare(book)
-    b, p = prep.book, prep.panel
-    t = Table(title=f"Book '{b.book.name}' is valid", title_justify="left")
-    for c in ["series", "unit", "rows", "first date", "last date", "last price"]:
-        t.add_column(c, justify="right" if c in ("rows", "last price") else "left")
-    for s in p.prices.columns:
-        t.add_row(s, b.series[s].unit, str(len(p.prices)), str(p.first_date.date()),
-                  str(p.last_date.date()), f"{p.prices[s].iloc[-1]:,.4f}")
-    out.print(t)
-    out.print(f"{len(b.exposures)} exposures, {len(b.instruments)} instruments, "
-              f"{len(b.group_limits)} group limits; {p.dropped_rows} rows dropped by alignment; "
-              f"estimator {b.estimation.estimator}, window {b.estimation.window} rows, horizon "
-              f"{b.book.horizon_days} days")
+    run_check(book, out)
 
 
 @app.command()
@@ -109,22 +121,31 @@ def report(
     book: Path = BookArg,
     output: Path = typer.Option(..., "--out", "-o", help="Markdown file to write."),
     method: str = MethodOpt,
-    time_limit: float = typer.Option(30.0, help="Seconds allowed for the whole-contract search."),
+    estimator: str | None = EstimatorOpt,
+    window: int | None = WindowOpt,
+    horizon: int | None = HorizonOpt,
+    changes: str | None = ChangesOpt,
+    sampling: str | None = SamplingOpt,
+    time_limit: float = TimeLimitOpt,
 ) -> None:
-    """Solve the book and write the hedge report (Markdown) for the hedge file."""
+    """Solve the book and write the hedge report (Markdown) for the hedge file; takes the same
+    overrides as solve."""
     from basiswise.data_adapters.output import write_text_atomic
     from basiswise.optimizer.pipeline import solve_book
     from basiswise.optimizer.results.markdown import to_markdown
 
-    if method not in ("exact", "round", "continuous"):
-        fail(f"unknown method '{method}'; valid: exact, round, continuous")
+    _door(method, time_limit, window, horizon)
     check_outputs({"--out": output}, book_inputs(book))
-    rep = solve_book(book, method, time_limit=time_limit)
+    rep = solve_book(book, method, time_limit=time_limit, estimator=estimator, window=window,
+                     horizon_days=horizon, changes=changes, sampling=sampling)
     if not rep.ok:
         fail(f"{book}: no feasible hedge ({rep.status}); no report written", EXIT_NO_HEDGE)
     write_text_atomic(to_markdown(rep, source=str(book)), output)
-    out.print(f"hedge report written to {output} (hedged std {rep.hedged_std:,.0f} "
-              f"{rep.currency} over {rep.horizon_days} days)", markup=False, highlight=False)
+    out.print(text(f"hedge report written to {output} (hedged std {rep.hedged_std:,.0f} "
+                   f"{rep.currency} over {rep.horizon_days} days)"))
+
+
+DEMO_FILES = ("book.toml", "prices.csv", "limit_cuts.toml")
 
 
 @app.command()
@@ -133,22 +154,28 @@ def demo(
     folder: Path = typer.Option(Path("basiswise-demo"), "--out",
                                 help="Folder for the demo book, prices and trade list."),
     method: str = MethodOpt,
+    force: bool = typer.Option(False, "--force",
+                               help="Overwrite files in the folder that differ from the demo."),
 ) -> None:
     """Write the invented demo book into a folder, solve it and write its trade list."""
     from basiswise.data_adapters.boundary import input_boundary
     from basiswise.data_adapters.output import atomic_write
 
+    _door(method, 30.0, None, None)
+    src = resources.files("basiswise.scenarios") / "demo"
+    with input_boundary(folder, "demo folder", key="--out"):
+        items = [(name, (src / name).read_bytes()) for name in DEMO_FILES
+                 if (src / name).is_file()]
+        clash = [name for name, data in items
+                 if (folder / name).exists() and (folder / name).read_bytes() != data]
+    if clash and not force:
+        fail(f"{folder}: {', '.join(clash)} already there and different from the demo; "
+             "nothing written (use --force to overwrite, or another --out folder)")
     with input_boundary(folder, "demo folder", key="--out"):
         folder.mkdir(parents=True, exist_ok=True)
-        src = resources.files("basiswise.scenarios") / "demo"
-        for name in ("book.toml", "prices.csv", "limit_cuts.toml"):
-            item = src / name
-            if item.is_file():
-                with resources.as_file(item) as f:
-                    data = f.read_bytes()
-                atomic_write(folder / name, lambda tmp, data=data: tmp.write_bytes(data))
-    out.print("demo book and invented prices written to ", end="")
-    out.print(str(folder), style="bold", markup=False, highlight=False)
+        for name, data in items:
+            atomic_write(folder / name, lambda tmp, data=data: tmp.write_bytes(data))
+    out.print(text(f"demo book and invented prices written to {folder}"))
     _solve_and_show(folder / "book.toml", method, folder / "trades.csv", False, 30.0)
 
 

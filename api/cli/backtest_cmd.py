@@ -7,10 +7,20 @@ from pathlib import Path
 
 import typer
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
-from rich.table import Table
 
-from .common import book_inputs, check_outputs, err, fail, guarded, out
-from .tables import cautions_panel, money, num, pct
+from .common import (
+    BookArg,
+    book_inputs,
+    check_outputs,
+    check_ranges,
+    err,
+    fail,
+    guarded,
+    out,
+    workers_option,
+)
+from .render import Column, Grid, show, text
+from .tables import cautions_panel, money, note, num, pct
 
 
 def _names(text: str | None, valid: tuple[str, ...], default: list[str], what: str) -> list[str]:
@@ -25,36 +35,53 @@ def _names(text: str | None, valid: tuple[str, ...], default: list[str], what: s
     return names
 
 
-def ranking_table(result) -> Table:
+def ranking_table(result) -> Grid:
     """Runs ranked by realised out-of-sample variance reduction."""
     cur, h = result.currency, result.horizon_days
-    t = Table(title=f"Backtest — {result.book.book.name}: {len(result.dates)} rebalances every "
-                    f"{result.step} days, {h}-day horizon, window {result.window} rows "
-                    f"({result.dates[0].date()} to {result.horizon_end[-1].date()})",
-              title_justify="left")
-    for name, just in [("rank", "right"), ("strategy", "left"), ("estimator", "left"),
-                       ("realised VR", "right"), ("in-sample VR", "right"),
-                       (f"hedged std {cur}", "right"), (f"worst {h}-d loss {cur}", "right"),
-                       ("contracts traded", "right"), (f"trading cost {cur}", "right"),
-                       ("held", "right")]:
-        wide = {"strategy": 16, "estimator": 11}.get(name)
-        t.add_column(name, justify=just, min_width=wide, no_wrap=wide is not None)
+    t = Grid(f"Backtest — {result.book.book.name}: {len(result.dates)} rebalances every "
+             f"{result.step} days, {h}-day horizon, window {result.window} rows "
+             f"({result.dates[0].date()} to {result.horizon_end[-1].date()})",
+             [Column("rank"), Column("strategy", "left"), Column("estimator", "left"),
+              Column("realised VR"), Column("in-sample VR"), Column(f"hedged std {cur}"),
+              Column(f"worst {h}-d loss {cur}"), Column("contracts traded"),
+              Column(f"trading cost {cur}"), Column("held")], keys=3)
     for rank, m in enumerate(result.metrics(), 1):
+        digits = 1 if m.strategy == "joint-continuous" else 0
         t.add_row(str(rank), m.strategy, m.estimator or "—", pct(m.variance_reduction),
                   pct(m.predicted_vr), money(m.hedged_std), money(m.worst_loss),
-                  num(m.contracts_traded), money(m.trading_cost), str(m.held))
+                  num(m.contracts_traded, digits), money(m.trading_cost), str(m.held))
     return t
 
 
-def effectiveness_table(result) -> Table:
+RANKING_GUIDE = (
+    "realised VR: 1 − Var(hedged)/Var(unhedged) of the out-of-sample horizon P&Ls (1 = all "
+    "price risk removed, below 0 = the hedge added risk)",
+    "in-sample VR: what the estimate promised at each rebalance; far above realised VR = the "
+    "estimate overfits or the relationships moved",
+    "hedged std / worst loss: the realised spread and the largest loss over one horizon, in "
+    "currency, the tail the book must be able to carry",
+    "contracts traded: sum of |trade| over all rebalances (joint-continuous is fractional, "
+    "shown to one decimal); trading cost: those contracts at cost_per_contract",
+    "held: rebalances where no feasible target was found and the previous positions were kept",
+)
+
+EFFECTIVENESS_GUIDE = (
+    "slope and R²: regression of the hedge legs' P&L on the exposures' P&L per period; a slope "
+    "near −1 and R² near 1 mean the legs offset the exposure period by period",
+    "cumulative dollar offset: the legs' summed P&L over the exposures' summed P&L; a high "
+    "variance reduction can sit beside an offset outside the band when the summed exposure P&L "
+    "is near zero, so read it beside the regression, which judges every period",
+)
+
+
+def effectiveness_table(result) -> Grid:
     """Regression and dollar-offset evidence for the best run, per hedge relationship."""
     best = result.best()
-    t = Table(title=f"Effectiveness evidence — {best.label} (holding-period P&L)",
-              title_justify="left")
-    for name in ["relationship", "periods", "slope", "R²", "regression test",
-                 "cumulative dollar offset", "offset test"]:
-        t.add_column(name, justify="left" if name == "relationship" else "right")
-    word = {True: "[green]inside[/]", False: "[red]outside[/]", None: "—"}
+    t = Grid(f"Effectiveness evidence — {best.label} (holding-period P&L)",
+             [Column("relationship", "left", wrap=True)]
+             + [Column(n) for n in ("periods", "slope", "R²", "regression test",
+                                    "cumulative dollar offset", "offset test")])
+    word = {True: text("inside", "green"), False: text("outside", "red"), None: "—"}
     for e in result.effectiveness(best):
         t.add_row(e.group, str(e.periods), num(e.slope, 3), num(e.r2, 3),
                   word[e.regression_ok], pct(e.dollar_offset), word[e.offset_ok])
@@ -70,7 +97,7 @@ def register(app: typer.Typer) -> None:
     @app.command()
     @guarded
     def backtest(
-        book: Path = typer.Argument(..., help="Book file (TOML).", show_default=False),
+        book: Path = BookArg,
         every: int | None = typer.Option(
             None, "--every", "-k", help="Business days between rebalances [default: horizon]."),
         strategies: str | None = typer.Option(
@@ -86,8 +113,7 @@ def register(app: typer.Typer) -> None:
         time_limit: float = typer.Option(10.0, help="Seconds per whole-contract solve."),
         as_json: bool = typer.Option(False, "--json", help="Print one JSON object on stdout."),
         png: Path | None = typer.Option(None, "--png", help="Write the cumulative P&L chart."),
-        workers: int = typer.Option(1, "--workers",
-                                    help="Local processes (one estimator per job)."),
+        workers: int = workers_option(1, "Local processes (one estimator per job)."),
     ) -> None:
         """Rolling out-of-sample backtest: each strategy and estimator, ranked by realised
         variance reduction, with hedge-effectiveness evidence."""
@@ -100,6 +126,9 @@ def register(app: typer.Typer) -> None:
 
         if method not in WHOLE_METHODS:
             fail(f"unknown method '{method}'; valid: {', '.join(WHOLE_METHODS)}")
+        check_ranges(every=(every, 1, False), window=(window, 2, False),
+                     horizon=(horizon, 1, False), time_limit=(time_limit, 0, True),
+                     workers=(workers, 1, False))
         check_outputs({"--png": png}, book_inputs(book))
         prep = prepare(book, window=window, horizon_days=horizon)
         strat = _names(strategies, STRATEGIES, list(STRATEGIES), "strategy")
@@ -124,16 +153,18 @@ def register(app: typer.Typer) -> None:
 
             write_backtest_png(result, png)
         if as_json:
-            print(json.dumps(result.to_dict(), indent=2))
+            d = result.to_dict()
+            d["notes"] = list(prep.notes) + d["notes"]  # e.g. the rows as_of left out
+            print(json.dumps(d, indent=2))
             return
-        out.print(ranking_table(result))
-        out.print("[dim]VR = variance reduction 1 − Var(hedged)/Var(unhedged) of the realised "
-                  "horizon P&Ls; in-sample VR = what the estimate promised; held = rebalances "
-                  "where the previous positions were kept.[/]")
-        out.print(effectiveness_table(result))
-        out.print(f"[dim]{EVIDENCE_NOTE}[/]")
-        for note in prep.notes + result.notes:
-            out.print(f"[dim]note: {note}[/]")
+        show(out, ranking_table(result))
+        for line in RANKING_GUIDE:
+            note(out, line, "")
+        show(out, effectiveness_table(result))
+        for line in EFFECTIVENESS_GUIDE + (EVIDENCE_NOTE,):
+            note(out, line, "")
+        for line in prep.notes + result.notes:
+            note(out, line)
         if png is not None:
-            out.print(f"chart written to [bold]{png}[/]")
+            out.print(text(f"chart written to {png}"))
         out.print(cautions_panel(CAUTIONS))

@@ -13,11 +13,12 @@ from pathlib import Path
 
 import typer
 from rich.console import Console
+from rich.text import Text
 
 from basiswise.data_adapters.errors import InputError
 
-# piped output gets a width that fits the widest table instead of rich's default 80
-out = Console() if Console().is_terminal else Console(width=130)
+# width: COLUMNS when set, else the terminal's, else 80; tables split to fit (render.fit)
+out = Console()
 err = Console(stderr=True, soft_wrap=True)  # an error stays on one line
 
 EXIT_INTERNAL = 1
@@ -28,8 +29,8 @@ EXIT_SOLVER = 4
 
 def fail(message: str, code: int = EXIT_INPUT) -> None:
     """Print one clear error line on stderr and exit non-zero."""
-    err.print("[bold red]error:[/] ", end="", highlight=False)
-    err.print(" ".join(str(message).split()), markup=False, highlight=False)
+    err.print(Text.assemble(("error:", "bold red"), " ", " ".join(str(message).split())),
+              highlight=False)
     raise typer.Exit(code)
 
 
@@ -90,3 +91,28 @@ def guarded(fn):
                  "written; set BASISWISE_DEBUG=1 for the traceback", EXIT_INTERNAL)
 
     return wrapper
+
+
+# one spelling for the options every command shares
+BookArg = typer.Argument(..., help="Book file (TOML).", show_default=False, metavar="BOOK")
+METHODS = ("exact", "round", "continuous")
+
+
+def workers_option(default: int, help: str):
+    """``--workers/-w``, the same on every command that runs work in parallel."""
+    return typer.Option(default, "--workers", "-w", help=help)
+
+
+def check_ranges(**values) -> None:
+    """Refuse out-of-range option values at the door: ``name=(value, low, open_low)``.
+
+    ``open_low`` True means the value must be above ``low``, False at least ``low``; ``None``
+    values (option not given) pass.
+    """
+    for name, (value, low, open_low) in values.items():
+        if value is None:
+            continue
+        flag = "--" + name.replace("_", "-")
+        if (value <= low) if open_low else (value < low):
+            need = f"above {low:g}" if open_low else f"at least {low:g}"
+            fail(f"{flag} must be {need}, got {value:g}")

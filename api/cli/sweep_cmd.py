@@ -6,10 +6,21 @@ import json
 from pathlib import Path
 
 import typer
-from rich.table import Table
+from rich.text import Text
 
-from .common import EXIT_NO_HEDGE, book_inputs, check_outputs, err, fail, guarded, out
-from .tables import cautions_panel, money, num, pct
+from .common import (
+    EXIT_NO_HEDGE,
+    BookArg,
+    book_inputs,
+    check_outputs,
+    err,
+    fail,
+    guarded,
+    out,
+    workers_option,
+)
+from .render import Column, Grid, show, text
+from .tables import cautions_panel, money, note, num, pct
 
 MAX_ROWS = 60
 PROGRESS_FROM = 20
@@ -42,53 +53,59 @@ def _short(limit: str) -> str:
     return limit
 
 
-def _binding_text(r, cur: str) -> str:
+def _binding_text(r, cur: str) -> Text:
     if not r.feasible:
-        return "[red]" + "; ".join(r.conflicts) + "[/]"
+        return text("; ".join(r.conflicts), "red")
     top = sorted(r.binding, key=lambda b: -b["shadow"])[:2]
     more = len(r.binding) - len(top)
     unit = {"contract": "ct"}
-    text = "; ".join(f"{_short(b['limit'])} {money(b['shadow'])}/"
-                     f"{unit.get(b['unit'], b['unit'].replace('100,000', '100k').split(' of')[0])}"
-                     for b in top)
-    return text + (f"; +{more} more" if more > 0 else "")
+    words = "; ".join(f"{_short(b['name'])} {money(b['shadow'])}/"
+                      f"{unit.get(b['unit'], b['unit'].replace('100,000', '100k').split(' of')[0])}"
+                      for b in top)
+    return text(words + (f"; +{more} more" if more > 0 else ""))
 
 
-def comparison_table(res) -> Table:
-    cur, h = res.currency, res.horizon_days
-    t = Table(title=f"Scenarios — {res.book} ({res.method}, {h}-day horizon, {cur}; stress P&L: "
-                    "loss negative)", title_justify="left")
-    t.add_column("scenario", no_wrap=True)
-    for name, just in [("status", "left"), (f"hedged std {cur}", "right"),
-                       ("var. red.", "right"), (f"margin {cur}", "right"),
-                       (f"stress unhedged → hedged {cur}", "right")]:
-        t.add_column(name, justify=just, no_wrap=True)
+def _horizon(res) -> str:
+    """The title's horizon: one number when every scenario shares it, else each one."""
+    hs = sorted({r.settings.get("horizon_days", res.horizon_days) for r in res.results}
+                or {res.horizon_days})
+    if len(hs) == 1:
+        return f"{hs[0]}-day horizon"
+    return "horizons " + ", ".join(str(h) for h in hs) + " days (stds over each scenario's own)"
+
+
+def comparison_table(res) -> Grid:
+    cur = res.currency
+    t = Grid(f"Scenarios — {res.book} ({res.method}, {_horizon(res)}, {cur}; stress P&L: "
+             "loss negative)",
+             [Column("scenario", "left", wrap=True), Column("status", "left"),
+              Column(f"hedged std {cur}"), Column("var. red."), Column(f"margin {cur}"),
+              Column(f"stress unhedged → hedged {cur}", wrap=True)])
     for r in res.results[:MAX_ROWS]:
         st = r.stress
         stress = ("" if st is None else
                   f"{money(st['unhedged'])} → {money(st['hedged'])}")
-        status = r.status if r.feasible else f"[red]{r.status}[/]"
+        status = text(r.status, None if r.feasible else "red")
         t.add_row(r.name, status, money(r.hedged_std), pct(r.variance_reduction),
                   money(r.margin_used), stress)
     return t
 
 
-def binding_table(res) -> Table:
-    t = Table(title=f"Binding limits per scenario (hedged std cut per extra unit, {res.currency}) "
-                    "and conflicts", title_justify="left")
-    t.add_column("scenario", no_wrap=True)
-    t.add_column("top binding limits, or why infeasible", overflow="fold")
+def binding_table(res) -> Grid:
+    t = Grid(f"Binding limits per scenario (hedged std cut per extra unit, {res.currency}) "
+             "and conflicts", [Column("scenario", "left", wrap=True),
+                               Column("top binding limits, or why infeasible", "left",
+                                      wrap=True)])
     for r in res.results[:MAX_ROWS]:
         t.add_row(r.name, _binding_text(r, res.currency))
     return t
 
 
-def contracts_table(res) -> Table:
+def contracts_table(res) -> Grid:
     digits = 2 if res.method == "continuous" else 0
-    t = Table(title="Contracts per instrument (negative = short)", title_justify="left")
-    t.add_column("scenario", no_wrap=True)
-    for inst in res.instruments:
-        t.add_column(inst, justify="right")
+    unit = "fractional contracts, method continuous" if digits else "contracts"
+    t = Grid(f"Contracts per instrument (target positions, {unit}; negative = short)",
+             [Column("scenario", "left", wrap=True)] + [Column(i) for i in res.instruments])
     for r in res.results[:MAX_ROWS]:
         t.add_row(r.name, *[num(r.contracts.get(i), digits) if r.feasible and i in r.contracts
                             else ("—" if r.feasible else "") for i in res.instruments])
@@ -129,15 +146,15 @@ def register(app: typer.Typer) -> None:
     @app.command()
     @guarded
     def sweep(
-        book: Path = typer.Argument(..., help="Book file (TOML).", show_default=False),
-        scenarios: Path = typer.Argument(..., help="Scenario file (TOML).", show_default=False),
+        book: Path = BookArg,
+        scenarios: Path = typer.Argument(..., help="Scenario file (TOML).", show_default=False,
+                                         metavar="SCENARIOS"),
         method: str = typer.Option("exact", "--method", "-m",
                                    help="exact (whole contracts, proven) | round | continuous"),
         as_json: bool = typer.Option(False, "--json", help="Print one JSON object on stdout."),
         csv: Path | None = typer.Option(None, "--csv", help="Write one row per scenario (CSV)."),
         png: Path | None = typer.Option(None, "--png", help="Write the limit frontier (PNG)."),
-        workers: int = typer.Option(0, "--workers", "-w",
-                                    help="Local worker processes (0 = automatic, 1 = serial)."),
+        workers: int = workers_option(0, "Local worker processes (0 = automatic, 1 = serial)."),
         scheduler: str | None = typer.Option(None, "--scheduler",
                                              help="dask.distributed scheduler address."),
         time_limit: float = typer.Option(30.0, help="Seconds allowed per scenario's "
@@ -166,26 +183,30 @@ def register(app: typer.Typer) -> None:
         lines = frontier_lines(res.results)
         if csv is not None:
             write_csv_atomic(res.to_frame(), csv)
-        if png is not None:
+        points = sum(len(ln.scale) for ln in lines)
+        png_skipped = png is not None and points < 2
+        if png is not None and not png_skipped:
             write_frontier_png(lines, png, currency=res.currency,
                                title=f"Limit frontier — {res.book}")
         if as_json:
             print(json.dumps(res.to_dict(), indent=2, allow_nan=False))
         else:
-            out.print(comparison_table(res))
-            out.print(binding_table(res))
-            out.print(contracts_table(res))
+            show(out, [comparison_table(res), binding_table(res), contracts_table(res)])
             if len(res.results) > MAX_ROWS:
-                out.print(f"[dim]{len(res.results) - MAX_ROWS} more scenarios: see --csv or "
-                          "--json[/]")
+                note(out, f"{len(res.results) - MAX_ROWS} more scenarios: see --csv or --json",
+                     "")
             for label in _stress_labels(res):
-                out.print(f"[dim]stress: {label}[/]")
+                note(out, label, "stress: ")
             out.print(frontier_text(lines, res.currency), highlight=False, markup=False)
-            out.print(f"[dim]{len(res.results)} scenarios in {res.seconds:.1f} s ({res.mode}); "
-                      "shadow prices from the continuous relaxation[/]")
-            for path, what in ((csv, "scenario table"), (png, "frontier chart")):
+            note(out, f"{len(res.results)} scenarios in {res.seconds:.1f} s ({res.mode}); "
+                 "shadow prices from the continuous relaxation", "")
+            for path, what in ((csv, "scenario table"),
+                               (None if png_skipped else png, "frontier chart")):
                 if path is not None:
-                    out.print(f"{what} written to [bold]{path}[/]")
+                    out.print(text(f"{what} written to {path}"))
             out.print(cautions_panel(res))
+        if png_skipped:
+            err.print(text(f"frontier chart not written to {png}: fewer than two feasible "
+                           "limit-scale points (add a limit_scale grid)", "yellow"))
         if not any(r.feasible for r in res.results):
             fail("no scenario has a feasible hedge", EXIT_NO_HEDGE)

@@ -192,7 +192,7 @@ class BacktestResult:
             "method": self.method, "rebalances": len(self.dates),
             "first_date": str(self.dates[0].date()), "last_date": str(self.horizon_end[-1].date()),
             "seconds": self.seconds,
-            "ranking": [dataclasses.asdict(m) for m in self.metrics()],
+            "ranking": [_metrics_dict(m) for m in self.metrics()],
             "effectiveness": {"strategy": best.strategy, "estimator": best.estimator,
                               "groups": [e.to_dict() for e in self.effectiveness(best)],
                               "note": EVIDENCE_NOTE},
@@ -205,6 +205,16 @@ def _pooled(run: Run) -> float:
     v0 = run.predicted_var0
     total = float(v0.sum())
     return float(1.0 - ((1.0 - run.predicted_vr) * v0).sum() / total) if total > 0 else 0.0
+
+
+def _metrics_dict(m: RunMetrics) -> dict:
+    """One ranked run for JSON: whole counts as int, the in-sample VR under its shown name."""
+    d = dataclasses.asdict(m)
+    d["in_sample_vr"] = d.pop("predicted_vr")
+    d["whole_contracts"] = m.strategy != "joint-continuous"
+    if d["whole_contracts"]:
+        d["contracts_traded"] = int(round(m.contracts_traded))
+    return d
 
 
 def rebalance_rows(n_rows: int, window: int, horizon: int, step: int) -> np.ndarray:

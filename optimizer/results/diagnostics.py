@@ -28,6 +28,7 @@ from ..solvers.dispatch import HedgeSolution
 
 Z95, Z99 = float(norm.ppf(0.95)), float(norm.ppf(0.99))
 DUAL_TOL = 1e-7
+SHADOW_ZERO = 0.005  # a shadow price below half a cent of currency is shown and written as 0
 
 
 @dataclass(frozen=True)
@@ -35,18 +36,19 @@ class InstrumentLine:
     id: str
     series: str
     contract_month: str
-    current: float
-    target: float
-    trade: float
-    side: str
+    current: int | float    # contracts held now (int; float only for method continuous)
+    target: int | float     # contracts after the trade (int unless method continuous)
+    trade: int | float      # target − current
+    side: str               # BUY / SELL / HOLD, from the trade as shown
     price: float
-    notional: float         # target × contract value, currency, sign of the position
+    target_notional: float  # target × contract value, currency, sign of the position
     trade_notional: float   # |trade| × contract value, currency
-    margin: float           # |target| × initial margin per contract, currency
+    target_margin: float    # |target| × initial margin per contract, currency
+    margin_change: float    # target margin − margin of the current position, currency
     adv_share: float | None  # |trade| / ADV
     days_to_execute: float | None  # |trade| / (participation × ADV)
     limit_use: float | None  # |target| / the position limit on its side
-    binding: str            # which limit the target sits on ("" if none)
+    on_limit: str           # which limit the target sits on ("" if none)
     shadow: float           # σ reduction per extra contract of that limit, currency (relaxation)
     risk_contribution: float  # Euler contribution to hedged σ, currency
 
@@ -72,8 +74,16 @@ class LimitLine:
     unit: str
 
 
-def side_of(trade: float) -> str:
-    return "BUY" if trade > 1e-9 else "SELL" if trade < -1e-9 else "HOLD"
+def side_of(trade: float, digits: int = 0) -> str:
+    """BUY / SELL / HOLD of ``trade`` as it is shown, rounded to ``digits`` decimals."""
+    shown = round(float(trade), digits)
+    return "BUY" if shown > 0 else "SELL" if shown < 0 else "HOLD"
+
+
+def whole(v: float) -> int | float:
+    """``v`` as an int when it is a whole count (within solver round-off), else unchanged."""
+    r = round(float(v))
+    return int(r) if abs(float(v) - r) <= 1e-6 else float(v)
 
 
 def contributions(model: HedgeModel, x: np.ndarray) -> tuple[np.ndarray, np.ndarray, float]:
@@ -88,7 +98,8 @@ def contributions(model: HedgeModel, x: np.ndarray) -> tuple[np.ndarray, np.ndar
 
 def _shadow_std(dual: float, model: HedgeModel, relaxed_var: float) -> float:
     s = math.sqrt(max(relaxed_var, 0.0))
-    return 0.0 if s <= 0 or dual <= 0 else dual * model.variance0 / (2 * s)
+    v = 0.0 if s <= 0 or dual <= 0 else dual * model.variance0 / (2 * s)
+    return v if v >= SHADOW_ZERO else 0.0
 
 
 def instrument_lines(model: HedgeModel, sol: HedgeSolution) -> list[InstrumentLine]:
@@ -97,29 +108,34 @@ def instrument_lines(model: HedgeModel, sol: HedgeSolution) -> list[InstrumentLi
     relaxed_var = (rel.objective or 0.0) * model.variance0
     value = model.value_per_contract()
     _, rc, _ = contributions(model, x)
+    fractional = sol.method == "continuous"
     lines = []
     for j, ins in enumerate(model.book.instruments):
-        trade = float(x[j] - model.current[j])
+        cur = float(model.current[j])
+        tgt = float(x[j]) if fractional else whole(x[j])
+        trade = float(x[j] - model.current[j]) if fractional else whole(tgt - cur)
         adv = ins.adv
         on_hi = x[j] >= qp.hi[j] - 1e-6 and math.isfinite(qp.hi[j])
         on_lo = x[j] <= qp.lo[j] + 1e-6 and math.isfinite(qp.lo[j])
-        binding, dual = "", 0.0
+        on_limit, dual = "", 0.0
         if on_hi:
-            binding, dual = f"{model.sources.hi[j]} (max)", float(rel.dual_hi[j])
+            on_limit, dual = f"{model.sources.hi[j]} (max)", float(rel.dual_hi[j])
         elif on_lo:
-            binding, dual = f"{model.sources.lo[j]} (min)", float(rel.dual_lo[j])
+            on_limit, dual = f"{model.sources.lo[j]} (min)", float(rel.dual_lo[j])
         pmin, pmax = ins.bounds()
         cap = pmax if x[j] > 0 else -pmin
         lines.append(InstrumentLine(
             id=ins.id, series=ins.series, contract_month=ins.contract_month or "",
-            current=float(model.current[j]), target=float(x[j]), trade=trade,
-            side=side_of(trade), price=float(model.prices[model.series.index(ins.series)]),
-            notional=float(x[j] * value[j]), trade_notional=abs(trade) * float(value[j]),
-            margin=abs(float(x[j])) * float(ins.margin),
+            current=cur if fractional else whole(cur), target=tgt, trade=trade,
+            side=side_of(trade, 2 if fractional else 0),
+            price=float(model.prices[model.series.index(ins.series)]),
+            target_notional=float(tgt * value[j]), trade_notional=abs(trade) * float(value[j]),
+            target_margin=abs(float(tgt)) * float(ins.margin),
+            margin_change=(abs(float(tgt)) - abs(cur)) * float(ins.margin),
             adv_share=abs(trade) / adv if adv else None,
             days_to_execute=abs(trade) / (ins.max_participation * adv) if adv else None,
             limit_use=abs(float(x[j])) / cap if math.isfinite(cap) and cap > 0 else None,
-            binding=binding, shadow=_shadow_std(dual, model, relaxed_var),
+            on_limit=on_limit, shadow=_shadow_std(dual, model, relaxed_var),
             risk_contribution=float(rc[j]),
         ))
     return lines
@@ -157,17 +173,21 @@ def limit_lines(model: HedgeModel, sol: HedgeSolution) -> list[LimitLine]:
             d = float(rel.dual_rows[i]) if i < len(rel.dual_rows) else 0.0
             if name.startswith("no over-hedge"):
                 # rows are normalised by the exposures' value: quote per 1 % of that value
-                out.append(LimitLine(name, "no over-hedge", d > DUAL_TOL,
-                                     _shadow_std(d / 100, model, relaxed_var),
+                on = d > DUAL_TOL
+                out.append(LimitLine(name, "no over-hedge", on,
+                                     _shadow_std(d / 100, model, relaxed_var) if on else 0.0,
                                      "1 % of the group's exposure value"))
             else:
-                out.append(LimitLine(name, "group limit", d > DUAL_TOL,
-                                     _shadow_std(d, model, relaxed_var), "contract"))
+                on = d > DUAL_TOL
+                out.append(LimitLine(name, "group limit", on,
+                                     _shadow_std(d, model, relaxed_var) if on else 0.0,
+                                     "contract"))
     if qp.margin_budget is not None and rel.dual_margin is not None:
         budget = float(model.book.constraints.margin_budget)
         # the dual is per whole budget (normalised to 1); quote it per 100,000 of currency
         d = rel.dual_margin * 1e5 / budget
-        out.append(LimitLine("margin budget", "margin", rel.dual_margin > DUAL_TOL,
-                             _shadow_std(d, model, relaxed_var),
+        on = rel.dual_margin > DUAL_TOL
+        out.append(LimitLine("margin budget", "margin", on,
+                             _shadow_std(d, model, relaxed_var) if on else 0.0,
                              f"100,000 {model.book.book.currency} of budget"))
     return out

@@ -1,4 +1,5 @@
-"""Make results safe for JSON: numbers are finite or ``None`` (never NaN or infinity)."""
+"""Make results safe for JSON: numbers are finite or ``None`` (never NaN or infinity), and a
+zero has no sign."""
 
 from __future__ import annotations
 
@@ -14,7 +15,7 @@ def finite(obj):
     if isinstance(obj, list | tuple):
         return [finite(v) for v in obj]
     if isinstance(obj, float | np.floating):
-        return float(obj) if math.isfinite(obj) else None
+        return float(obj) + 0.0 if math.isfinite(obj) else None  # + 0.0: no -0.0
     if isinstance(obj, np.integer):
         return int(obj)
     return obj

@@ -34,7 +34,7 @@ def md_text(value: object) -> str:
 def _m(v: float | None, cur: str = "") -> str:
     if v is None or not math.isfinite(v):
         return "—"
-    return f"{v:,.0f} {cur}".strip()
+    return f"{_n(v, 0)} {cur}".strip()
 
 
 def _p(v: float | None) -> str:
@@ -47,6 +47,42 @@ def _table(header: list[str], rows: list[list[str]]) -> str:
     return "\n".join(lines)
 
 
+def _n(v: float, digits: int) -> str:
+    s = f"{v:,.{digits}f}"
+    return "0" if float(s.replace(",", "")) == 0 else s
+
+
+def _positions(r: HedgeReport) -> list[str]:
+    cur = r.currency
+    digits = 2 if r.method == "continuous" else 0
+    rows = [[md_text(i.id), _n(i.current, digits), _n(i.target, digits), _n(i.trade, digits),
+             i.side, _m(i.target_notional), _m(i.target_margin), _m(i.margin_change),
+             md_text(i.on_limit)]
+            for i in r.instruments]
+    return ["## Futures positions", "",
+            "Contracts; negative = short. Trade = target − current. Target notional and target "
+            "margin are those of the position after the trade; margin change is what the trade "
+            "adds to the margin of the current position.", "",
+            _table(["instrument", "current", "target", "trade", "side", f"target notional {cur}",
+                    f"target margin {cur}", f"margin change {cur}", "on limit"], rows), ""]
+
+
+def _exposures(r: HedgeReport) -> list[str]:
+    """Exposure rows, the futures row and the book row: risk after adds up to the hedged std."""
+    cur = r.currency
+    rows = [[md_text(e.id), md_text(e.series), md_text(f"{_n(e.quantity, 0)} {e.unit}"),
+             _m(e.value),
+             _m(e.standalone_std), _m(e.risk_before), _m(e.risk_after)] for e in r.exposures]
+    legs = sum(i.risk_contribution for i in r.instruments)
+    rows.append(["futures, all lines", "", "", "", "", _m(0.0), _m(legs)])
+    rows.append(["**book**", "", "", "", "", _m(r.unhedged_std), _m(r.hedged_std)])
+    return ["## Exposures", "",
+            "Quantity negative = must buy. Risk = Euler contribution to the P&L std; the rows "
+            "add up to the book row.", "",
+            _table(["exposure", "series", "quantity", f"value {cur}", f"alone std {cur}",
+                    f"risk before {cur}", f"risk after {cur}"], rows), ""]
+
+
 def to_markdown(r: HedgeReport, *, source: str = "", now: datetime | None = None) -> str:
     """Render ``r`` as Markdown: summary, positions, exposures, binding limits, notes, cautions."""
     now = now or datetime.now(UTC)
@@ -55,10 +91,19 @@ def to_markdown(r: HedgeReport, *, source: str = "", now: datetime | None = None
            f"Generated {now:%Y-%m-%d %H:%M} UTC from {md_text(source)}." if source else
            f"Generated {now:%Y-%m-%d %H:%M} UTC.", ""]
     shrink = "" if r.shrinkage is None else f", shrinkage intensity {r.shrinkage:.3f}"
+    budget = "none" if r.margin_budget is None else _m(r.margin_budget, cur)
+    overrides = md_text(", ".join(f"{k} = {v}" for k, v in sorted(r.overrides.items()))
+                        or "none")
+    whole = "fractional (method continuous, for analysis only)" if r.method == "continuous" \
+        else "whole contracts"
     out += ["## Summary", "", _table(["measure", "value"], [
-        ["method / status", md_text(f"{r.method} / {r.status}")],
-        ["covariance", md_text(f"{r.estimator}{shrink}; {r.observations} observations of "
-                               f"{r.changes} {h}-day changes ({r.sampling})")],
+        ["method / status", md_text(f"{r.method} / {r.status} ({whole})")],
+        ["decision date (as_of)", r.as_of or "not set: the last price date"],
+        ["last price date used", r.price_date or "—"],
+        ["estimator", f"{r.estimator}{shrink}"],
+        ["covariance data", f"{r.observations} observations of {r.changes} {h}-day changes "
+                            f"({r.sampling})"],
+        ["overrides of the book", overrides],
         [f"unhedged P&L std over {h} days", _m(r.unhedged_std, cur)],
         [f"hedged P&L std over {h} days", _m(r.hedged_std, cur)],
         ["continuous relaxation (lower bound)", _m(r.relaxed_hedged_std, cur)],
@@ -68,23 +113,11 @@ def to_markdown(r: HedgeReport, *, source: str = "", now: datetime | None = None
          f"{_m(r.var95_unhedged, cur)} → {_m(r.var95_hedged, cur)}"],
         ["VaR 99 % (normal, loss) unhedged → hedged",
          f"{_m(r.var99_unhedged, cur)} → {_m(r.var99_hedged, cur)}"],
-        ["initial margin used", _m(r.margin_used, cur)],
+        ["initial margin of the targets", _m(r.margin_used, cur)],
+        ["margin budget", budget],
     ]), ""]
     if r.ok:
-        out += ["## Futures positions", "",
-                "Contracts; negative = short. Trade = target − current.", "",
-                _table(["instrument", "current", "target", "trade", "side", f"notional {cur}",
-                        f"margin {cur}", "on limit"],
-                       [[md_text(i.id), f"{i.current:g}", f"{i.target:g}", f"{i.trade:g}", i.side,
-                         _m(i.notional), _m(i.margin), md_text(i.binding or "")]
-                        for i in r.instruments]), ""]
-        out += ["## Exposures", "",
-                "Quantity negative = must buy. Risk = Euler contribution to the P&L std.", "",
-                _table(["exposure", "series", "quantity", f"value {cur}",
-                        f"risk before {cur}", f"risk after {cur}"],
-                       [[md_text(e.id), md_text(e.series), md_text(f"{e.quantity:,.0f} {e.unit}"),
-                         _m(e.value),
-                         _m(e.risk_before), _m(e.risk_after)] for e in r.exposures]), ""]
+        out += _positions(r) + _exposures(r)
         binding = [x for x in r.limits if x.binding]
         if binding:
             out += ["## Binding limits", "",
@@ -93,6 +126,8 @@ def to_markdown(r: HedgeReport, *, source: str = "", now: datetime | None = None
                     _table(["limit", "kind", f"shadow price {cur}", "per"],
                            [[md_text(x.name), md_text(x.kind), _m(x.shadow), md_text(x.unit)]
                             for x in binding]), ""]
+    if r.warnings:
+        out += ["## Warnings", ""] + [f"- {md_text(w)}" for w in r.warnings] + [""]
     if r.notes:
         out += ["## Notes", ""] + [f"- {md_text(n)}" for n in r.notes] + [""]
     out += ["## Cautions", ""] + [f"- {c}" for c in r.cautions] + [""]

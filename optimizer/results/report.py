@@ -2,8 +2,11 @@
 
 Units and signs: standard deviations and VaR are in the book's currency over ``horizon_days``;
 VaR is a loss shown as a positive number; positions and trades are in contracts, negative = short
-(SELL); notionals carry the sign of the position; variance reduction is a fraction of the unhedged
-variance (1 = all price risk removed).
+(SELL), whole numbers (int) unless the method is ``continuous``; ``target_notional`` carries the
+sign of the position, ``trade_notional`` is the unsigned value traded; ``target_margin`` is the
+initial margin of the target position and ``margin_change`` what the trade adds to (or frees
+from) the margin of the current one; variance reduction is a fraction of the unhedged variance
+(1 = all price risk removed).
 """
 
 from __future__ import annotations
@@ -63,6 +66,10 @@ class HedgeReport:
     limits: list[LimitLine] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
     cautions: tuple[str, ...] = CAUTIONS
+    warnings: list[str] = field(default_factory=list)   # short history, singular covariance
+    as_of: str | None = None             # decision date from [book] as_of (ISO), if set
+    price_date: str | None = None        # last price date used (ISO)
+    overrides: dict = field(default_factory=dict)   # settings replaced on the command line
 
     @property
     def ok(self) -> bool:
@@ -88,15 +95,17 @@ class HedgeReport:
                 "side": i.side, "contracts": abs(int(round(i.trade))),
                 "current": int(round(i.current)), "target": int(round(i.target)),
                 "reference_price": round(i.price, 6),
-                f"notional_{self.currency}": round(i.trade_notional, 2),
-                f"initial_margin_{self.currency}": round(i.margin, 2),
+                f"trade_notional_{self.currency}": round(i.trade_notional, 2),
+                f"target_margin_{self.currency}": round(i.target_margin, 2),
+                f"margin_change_{self.currency}": round(i.margin_change, 2) + 0.0,
                 "adv_share": None if i.adv_share is None else round(i.adv_share, 6),
                 "days_to_execute": None if i.days_to_execute is None
                 else round(i.days_to_execute, 3),
             })
         return pd.DataFrame(rows, columns=[
             "instrument", "series", "contract_month", "side", "contracts", "current", "target",
-            "reference_price", f"notional_{self.currency}", f"initial_margin_{self.currency}",
+            "reference_price", f"trade_notional_{self.currency}",
+            f"target_margin_{self.currency}", f"margin_change_{self.currency}",
             "adv_share", "days_to_execute"])
 
 
@@ -126,7 +135,7 @@ def build_report(model: HedgeModel, sol: HedgeSolution, notes: list[str] | None 
         inst = instrument_lines(model, sol)
         expo = exposure_lines(model, x)
         limits = limit_lines(model, sol)
-        margin_used = float(sum(i.margin for i in inst))
+        margin_used = float(sum(i.target_margin for i in inst))
         if sol.status == "time-limited":
             notes.append(f"whole-contract search stopped at its time limit: {sol.detail}; the "
                          "answer is feasible but not proven optimal")

@@ -35,7 +35,7 @@ class FrontierLine:
 
     def to_dict(self) -> dict:
         return {"group": self.label, "limit_scale": self.scale, "hedged_std": self.hedged_std,
-                "relaxed_std": self.relaxed_std, "unhedged_std": self.unhedged_std,
+                "relaxed_hedged_std": self.relaxed_std, "unhedged_std": self.unhedged_std,
                 "infeasible_scales": self.infeasible}
 
 

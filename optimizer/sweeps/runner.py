@@ -65,8 +65,8 @@ class ScenarioResult:
     variance_reduction: float | None
     margin_used: float | None
     margin_budget: float | None
-    contracts: dict[str, float]
-    binding: list[dict]
+    contracts: dict[str, int | float]   # target contracts (int unless method continuous)
+    binding: list[dict]                 # name, kind, shadow, unit: as solve's limits[]
     conflicts: list[str]
     stress: dict | None
     settings: dict
@@ -75,9 +75,12 @@ class ScenarioResult:
     limit_scale: float | None = None
     frontier_group: str = ""
 
-    def to_dict(self) -> dict:
-        """JSON-ready (finite numbers or ``None``)."""
-        return finite(asdict(self))
+    def to_dict(self, horizon_days: int | None = None) -> dict:
+        """JSON-ready (finite numbers or ``None``), keys named as in ``solve --json``."""
+        d = asdict(self)
+        d["relaxed_hedged_std"] = d.pop("relaxed_std")
+        d["horizon_days"] = self.settings.get("horizon_days", horizon_days)
+        return finite(d)
 
 
 @dataclass(frozen=True)
@@ -98,7 +101,7 @@ class SweepResult:
         return finite({
             "book": self.book, "currency": self.currency, "horizon_days": self.horizon_days,
             "method": self.method, "mode": self.mode, "seconds": self.seconds,
-            "scenarios": [r.to_dict() for r in self.results],
+            "scenarios": [r.to_dict(self.horizon_days) for r in self.results],
             "frontier": [ln.to_dict() for ln in frontier_lines(self.results)],
             "cautions": list(self.cautions),
         })
@@ -111,17 +114,22 @@ class SweepResult:
         for r in self.results:
             st = r.stress or {}
             row = {"scenario": r.name, "status": r.status, "unhedged_std": r.unhedged_std,
-                   "hedged_std": r.hedged_std, "relaxed_std": r.relaxed_std,
+                   "horizon_days": r.settings.get("horizon_days", self.horizon_days),
+                   "hedged_std": r.hedged_std, "relaxed_hedged_std": r.relaxed_std,
                    "variance_reduction": r.variance_reduction, "margin_used": r.margin_used,
                    "margin_budget": r.margin_budget, "stress": st.get("label"),
                    "stress_unhedged": st.get("unhedged"), "stress_hedged": st.get("hedged")}
             for inst in self.instruments:
                 row[f"contracts_{inst}"] = r.contracts.get(inst)
-            row["binding"] = "; ".join(f"{b['limit']} ({b['shadow']:.2f} per {b['unit']})"
+            row["binding"] = "; ".join(f"{b['name']} ({b['shadow']:.2f} per {b['unit']})"
                                        for b in r.binding)
             row["conflicts"] = "; ".join(r.conflicts)
             rows.append(finite(row))
-        return pd.DataFrame(rows)
+        frame = pd.DataFrame(rows)
+        if self.method != "continuous":  # whole counts stay integers where a scenario has none
+            for inst in self.instruments:
+                frame[f"contracts_{inst}"] = frame[f"contracts_{inst}"].astype("Int64")
+        return frame
 
 
 # --------------------------------------------------------------------------- limits
@@ -244,13 +252,13 @@ class SweepRunner:
                                   stress=self._stress(sc, base, None),
                                   seconds=time.perf_counter() - t0, **common)
         rep = build_report(model, sol)
-        binding = [{"limit": ln.name, "kind": ln.kind, "shadow": ln.shadow, "unit": ln.unit}
+        binding = [{"name": ln.name, "kind": ln.kind, "shadow": ln.shadow, "unit": ln.unit}
                     for ln in rep.limits if ln.binding]
         x = np.asarray(sol.x, dtype=float)
         return ScenarioResult(
             status=sol.status, feasible=True, hedged_std=rep.hedged_std,
             relaxed_std=rep.relaxed_hedged_std, variance_reduction=rep.variance_reduction,
-            margin_used=rep.margin_used, contracts={i.id: float(i.target) for i in rep.instruments},
+            margin_used=rep.margin_used, contracts={i.id: i.target for i in rep.instruments},
             binding=binding, conflicts=[], stress=self._stress(sc, model, x),
             seconds=time.perf_counter() - t0, **common)
 

@@ -132,7 +132,8 @@ class ScenarioSet:
 
 def _fmt(v: Any) -> str:
     if isinstance(v, float):
-        return f"{v:g}"
+        # 1000000.0 reads 1,000,000, not 1e+06; fractions keep their short form
+        return f"{v:,.0f}" if v.is_integer() and abs(v) >= 1e4 else f"{v:g}"
     if isinstance(v, dict):
         return "{" + ", ".join(f"{k}={_fmt(x)}" for k, x in v.items()) + "}"
     if isinstance(v, list | tuple):

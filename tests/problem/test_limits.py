@@ -34,7 +34,7 @@ def test_no_over_hedge_caps_group_notional():
     model = model_of(prepare(_book(no_over_hedge=True)))
     rep = solve_model(model, "exact")
     assert rep.ok
-    value = {i.id: i.notional for i in rep.instruments}
+    value = {i.id: i.target_notional for i in rep.instruments}
     exp_value = {e.id: e.value for e in rep.exposures}
     book = model.book
     for g in book.group_limits:
@@ -53,7 +53,7 @@ def test_liquidity_limits_the_trade():
     rep = solve_model(model_of(prepare(book)), "exact")
     # |target - current| <= participation × ADV × days = 2 contracts
     assert max(abs(i.trade) for i in rep.instruments) <= 2
-    assert any("liquidity" in i.binding for i in rep.instruments)
+    assert any("liquidity" in i.on_limit for i in rep.instruments)
 
 
 def test_conflicting_limits_name_the_instrument():

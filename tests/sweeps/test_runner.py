@@ -77,7 +77,7 @@ def test_results_are_consistent(serial):
     assert set(r["no-third-month"].contracts) == set(base.contracts) - {
         "CRUDE-F3", "ULSD-F3", "NATGAS-F3"}
     assert base.margin_used <= base.margin_budget * (1 + 1e-6)
-    assert any(b["limit"] == "margin budget" and b["shadow"] > 0 for b in base.binding)
+    assert any(b["name"] == "margin budget" and b["shadow"] > 0 for b in base.binding)
     json.dumps(serial.to_dict(), allow_nan=False)
 
 
