@@ -12,12 +12,19 @@ from __future__ import annotations
 import math
 from datetime import date
 from pathlib import Path
-from typing import Any, Literal
+from typing import Any
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, field_validator
 
 from basiswise.data_adapters import book_rules as rules
 from basiswise.data_adapters.boundary import input_boundary
+from basiswise.data_adapters.choices import (
+    PRICE_FORMATS,
+    ChangeKind,
+    Estimator,
+    RollAdjustment,
+    Sampling,
+)
 from basiswise.data_adapters.errors import InputError, from_validation_error
 from basiswise.data_adapters.toml_file import read_toml
 from basiswise.data_adapters.units import parse_price_unit, units_in_price_unit
@@ -36,9 +43,7 @@ __all__ = [
     "load_book",
 ]
 
-Changes = Literal["relative", "log", "absolute"]
-Estimator = Literal["sample", "ledoit-wolf", "oas", "constant-correlation", "ewma"]
-Sampling = Literal["overlapping", "non-overlapping", "scaled"]
+Changes = ChangeKind  # the name the schema has always used
 
 
 class _Model(BaseModel):
@@ -69,11 +74,11 @@ class RollSpec(_Model):
 
     expiries: str = Field(min_length=1)
     roll_days: int = Field(5, ge=0, le=250)
-    adjust: Literal["ratio", "difference", "none"] = "ratio"
+    adjust: RollAdjustment = "ratio"
     contract_column: str = Field("contract", min_length=1)
 
 
-_FORMATS = ("wide", "long", "contracts")
+_FORMATS = PRICE_FORMATS
 
 
 class DataSpec(_Model):

@@ -19,6 +19,7 @@ import numpy as np
 import pandas as pd
 
 from basiswise.data_adapters.boundary import input_boundary
+from basiswise.data_adapters.choices import ROLL_ADJUSTMENTS
 from basiswise.data_adapters.errors import InputError
 from basiswise.data_adapters.prices import (
     PricePanel,
@@ -32,7 +33,7 @@ from basiswise.data_adapters.prices import (
 __all__ = ["ADJUSTMENTS", "GENERIC_NAME", "load_contract_prices", "read_expiries", "roll_generic"]
 
 #: Back-adjustment methods accepted by :func:`roll_generic`.
-ADJUSTMENTS = ("ratio", "difference", "none")
+ADJUSTMENTS = ROLL_ADJUSTMENTS
 #: A generic month name: ``<product>_m<k>``, k = 1, 2, ...
 GENERIC_NAME = re.compile(r"^(?P<product>.+)_m(?P<k>[1-9][0-9]*)$")
 

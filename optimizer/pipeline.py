@@ -15,6 +15,7 @@ from pathlib import Path
 import pandas as pd
 
 from basiswise.data_adapters.book import Book, load_book
+from basiswise.data_adapters.choices import RATIO_CHANGES
 from basiswise.data_adapters.errors import InputError
 from basiswise.data_adapters.prices import PricePanel, check_positive, load_prices
 
@@ -96,7 +97,7 @@ def prepare(book: Book | str | Path, **overrides) -> Prepared:
     if book.book.as_of is not None:
         _check_months(book, book.book.as_of)
         panel, cut_notes = cut_at(panel, book.book.as_of, book.source)
-    if book.estimation.changes in ("relative", "log"):
+    if book.estimation.changes in RATIO_CHANGES:
         check_positive(panel, list(panel.prices.columns))
     return Prepared(book, panel, cut_notes, overrides)
 

@@ -10,9 +10,10 @@ from pathlib import Path
 
 import typer
 
+from basiswise.data_adapters.choices import METHODS, ChangeKind, Estimator, Method, Sampling
+
 from .common import (
     EXIT_NO_HEDGE,
-    METHODS,
     BookArg,
     book_inputs,
     check_outputs,
@@ -24,7 +25,9 @@ from .common import (
 )
 from .render import text
 
+# help text follows the terminal width (COLUMNS) up to 200 columns; click alone stops at 80
 app = typer.Typer(add_completion=False, no_args_is_help=True, rich_markup_mode=None,
+                  context_settings={"max_content_width": 200},
                   help="Joint minimum-variance cross hedges in whole futures contracts.")
 
 MethodOpt = typer.Option("exact", "--method", "-m",
@@ -89,14 +92,14 @@ def _solve_and_show(book, method, trades, as_json, time_limit, **overrides) -> N
 @guarded
 def solve(
     book: Path = BookArg,
-    method: str = MethodOpt,
+    method: Method = MethodOpt,
     as_json: bool = JsonOpt,
     trades: Path | None = typer.Option(None, "--trades", help="Write the trade list (CSV)."),
-    estimator: str | None = EstimatorOpt,
+    estimator: Estimator | None = EstimatorOpt,
     window: int | None = WindowOpt,
     horizon: int | None = HorizonOpt,
-    changes: str | None = ChangesOpt,
-    sampling: str | None = SamplingOpt,
+    changes: ChangeKind | None = ChangesOpt,
+    sampling: Sampling | None = SamplingOpt,
     time_limit: float = TimeLimitOpt,
 ) -> None:
     """Solve the book's hedge and show it; optionally write the trade list."""
@@ -120,12 +123,12 @@ def check(book: Path = BookArg) -> None:
 def report(
     book: Path = BookArg,
     output: Path = typer.Option(..., "--out", "-o", help="Markdown file to write."),
-    method: str = MethodOpt,
-    estimator: str | None = EstimatorOpt,
+    method: Method = MethodOpt,
+    estimator: Estimator | None = EstimatorOpt,
     window: int | None = WindowOpt,
     horizon: int | None = HorizonOpt,
-    changes: str | None = ChangesOpt,
-    sampling: str | None = SamplingOpt,
+    changes: ChangeKind | None = ChangesOpt,
+    sampling: Sampling | None = SamplingOpt,
     time_limit: float = TimeLimitOpt,
 ) -> None:
     """Solve the book and write the hedge report (Markdown) for the hedge file; takes the same
@@ -153,7 +156,7 @@ DEMO_FILES = ("book.toml", "prices.csv", "limit_cuts.toml")
 def demo(
     folder: Path = typer.Option(Path("basiswise-demo"), "--out",
                                 help="Folder for the demo book, prices and trade list."),
-    method: str = MethodOpt,
+    method: Method = MethodOpt,
     force: bool = typer.Option(False, "--force",
                                help="Overwrite files in the folder that differ from the demo."),
 ) -> None:

@@ -8,6 +8,8 @@ from pathlib import Path
 import typer
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
+from basiswise.data_adapters.choices import ESTIMATORS, WHOLE_METHODS, WholeMethod
+
 from .common import (
     BookArg,
     book_inputs,
@@ -99,14 +101,14 @@ def register(app: typer.Typer) -> None:
     def backtest(
         book: Path = BookArg,
         every: int | None = typer.Option(
-            None, "--every", "-k", help="Business days between rebalances [default: horizon]."),
+            None, "--every", "-k", help="Business days per rebalance [default: horizon]."),
         strategies: str | None = typer.Option(
             None, "--strategies", help="Comma list or 'all' [default: all]: unhedged, "
             "one-to-one, single-mv, joint-continuous, joint-whole."),
         estimators: str | None = typer.Option(
-            None, "--estimators", help="Comma list or 'all' [default: the book's]: sample, "
-            "ledoit-wolf, oas, constant-correlation, ewma."),
-        method: str = typer.Option("exact", "--method", "-m",
+            None, "--estimators", help="Comma list or 'all' [default: the book's]: "
+            + ", ".join(ESTIMATORS) + "."),
+        method: WholeMethod = typer.Option("exact", "--method", "-m",
                                    help="Whole contracts for joint-whole: exact | round."),
         window: int | None = typer.Option(None, help="Override [estimation].window (rows)."),
         horizon: int | None = typer.Option(None, help="Override [book].horizon_days."),
@@ -118,9 +120,8 @@ def register(app: typer.Typer) -> None:
         """Rolling out-of-sample backtest: each strategy and estimator, ranked by realised
         variance reduction, with hedge-effectiveness evidence."""
         from basiswise.optimizer.backtest.effectiveness import EVIDENCE_NOTE
-        from basiswise.optimizer.backtest.engine import WHOLE_METHODS, run_backtest
+        from basiswise.optimizer.backtest.engine import run_backtest
         from basiswise.optimizer.backtest.strategies import STRATEGIES
-        from basiswise.optimizer.estimation.covariance import ESTIMATORS
         from basiswise.optimizer.pipeline import prepare
         from basiswise.optimizer.results.cautions import CAUTIONS
 

@@ -15,6 +15,7 @@ import typer
 from rich.console import Console
 from rich.text import Text
 
+from basiswise.data_adapters.choices import METHODS as _METHODS
 from basiswise.data_adapters.errors import InputError
 
 # width: COLUMNS when set, else the terminal's, else 80; tables split to fit (render.fit)
@@ -95,7 +96,7 @@ def guarded(fn):
 
 # one spelling for the options every command shares
 BookArg = typer.Argument(..., help="Book file (TOML).", show_default=False, metavar="BOOK")
-METHODS = ("exact", "round", "continuous")
+METHODS = _METHODS  # defined once, in data_adapters.choices
 
 
 def workers_option(default: int, help: str):

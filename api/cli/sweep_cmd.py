@@ -8,6 +8,8 @@ from pathlib import Path
 import typer
 from rich.text import Text
 
+from basiswise.data_adapters.choices import METHODS, Method
+
 from .common import (
     EXIT_NO_HEDGE,
     BookArg,
@@ -149,7 +151,7 @@ def register(app: typer.Typer) -> None:
         book: Path = BookArg,
         scenarios: Path = typer.Argument(..., help="Scenario file (TOML).", show_default=False,
                                          metavar="SCENARIOS"),
-        method: str = typer.Option("exact", "--method", "-m",
+        method: Method = typer.Option("exact", "--method", "-m",
                                    help="exact (whole contracts, proven) | round | continuous"),
         as_json: bool = typer.Option(False, "--json", help="Print one JSON object on stdout."),
         csv: Path | None = typer.Option(None, "--csv", help="Write one row per scenario (CSV)."),
@@ -170,7 +172,7 @@ def register(app: typer.Typer) -> None:
             write_frontier_png,
         )
 
-        if method not in ("exact", "round", "continuous"):
+        if method not in METHODS:
             fail(f"unknown method '{method}'; valid: exact, round, continuous")
         if workers < 0:
             fail(f"--workers must be 0 or more, got {workers}")

@@ -45,6 +45,7 @@ import numpy as np
 import pandas as pd
 
 from basiswise.data_adapters.book import Book
+from basiswise.data_adapters.choices import WHOLE_METHODS as _WHOLE_METHODS
 from basiswise.data_adapters.errors import InputError
 from basiswise.data_adapters.prices import PricePanel
 
@@ -67,7 +68,7 @@ from .strategies import (
     single_mv,
 )
 
-WHOLE_METHODS = ("exact", "round")
+WHOLE_METHODS = _WHOLE_METHODS  # defined once, in data_adapters.choices
 MIN_REBALANCES = 3
 _BIG = 1e6  # stand-in for an infinite bound (contracts), keeps the problem structure fixed
 

@@ -47,10 +47,11 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from basiswise.data_adapters.choices import CHANGE_KINDS as _CHANGE_KINDS
+from basiswise.data_adapters.choices import SAMPLINGS as _SAMPLINGS
 from basiswise.data_adapters.errors import InputError
 
-CHANGE_KINDS = ("relative", "log", "absolute")
-SAMPLINGS = ("overlapping", "non-overlapping", "scaled")
+CHANGE_KINDS, SAMPLINGS = _CHANGE_KINDS, _SAMPLINGS  # defined once, in data_adapters.choices
 
 MIN_OBSERVATIONS = 3
 

@@ -60,9 +60,10 @@ from dataclasses import dataclass
 import numpy as np
 from sklearn.covariance import OAS, LedoitWolf
 
+from basiswise.data_adapters.choices import ESTIMATORS as _ESTIMATORS
 from basiswise.data_adapters.errors import InputError
 
-ESTIMATORS = ("sample", "ledoit-wolf", "oas", "constant-correlation", "ewma")
+ESTIMATORS = _ESTIMATORS  # defined once, in data_adapters.choices
 
 
 @dataclass(frozen=True)

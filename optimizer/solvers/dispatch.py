@@ -20,10 +20,12 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from basiswise.data_adapters.choices import METHODS as _METHODS
+
 from ..problem.formulation import FormulationResult, SolverFailure, solve_relaxed
 from ..problem.qp import HedgeQP
 
-METHODS = ("exact", "round", "continuous")
+METHODS = _METHODS  # defined once, in data_adapters.choices
 __all__ = ["METHODS", "HedgeSolution", "SolverFailure", "solve_qp"]
 
 
