@@ -28,7 +28,8 @@ from pathlib import Path
 import numpy as np
 
 from basiswise.data_adapters.book import load_book
-from basiswise.optimizer.sweeps.runner import SweepRunner, _mp_context, run_sweep
+from basiswise.optimizer.sweeps.local_pool import _mp_context
+from basiswise.optimizer.sweeps.runner import SweepRunner, run_sweep
 from basiswise.optimizer.sweeps.scenario_file import parse_scenarios
 
 

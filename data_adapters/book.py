@@ -16,7 +16,9 @@ from typing import Any
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, field_validator
 
+from basiswise.data_adapters import book_rules as rules
 from basiswise.data_adapters.book_costs import CostSpec, check_costs
+from basiswise.data_adapters.boundary import input_boundary
 from basiswise.data_adapters.choices import (
     PRICE_FORMATS,
     ChangeKind,
@@ -49,13 +51,18 @@ Changes = ChangeKind  # the name the schema has always used
 class _Model(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True, strict=True, allow_inf_nan=False)
 
+    @field_validator("*", mode="after")
+    @classmethod
+    def _plain_text(cls, value: Any) -> Any:
+        return rules.plain_text(value)
+
 
 class BookMeta(_Model):
     """``[book]``: name, reporting currency, hedge horizon in trading days, as-of date."""
 
     name: str = Field(min_length=1)
     currency: str = Field("USD", pattern=r"^[A-Z]{3}$")
-    horizon_days: int = Field(20, ge=1)
+    horizon_days: int = Field(20, ge=1, le=rules.MAX_DAYS)
     as_of: date | None = None
 
 
@@ -68,7 +75,7 @@ class RollSpec(_Model):
     """
 
     expiries: str = Field(min_length=1)
-    roll_days: int = Field(5, ge=0)
+    roll_days: int = Field(5, ge=0, le=250)
     adjust: RollAdjustment = "ratio"
     contract_column: str = Field("contract", min_length=1)
 
@@ -97,7 +104,7 @@ class DataSpec(_Model):
     date_column: str = Field("date", min_length=1)
     series_column: str = Field("series", min_length=1)
     price_column: str = Field("price", min_length=1)
-    max_gap_days: int = Field(7, ge=1)
+    max_gap_days: int = Field(7, ge=1, le=3660)
     table: str = Field("prices", min_length=1)  # table in a SQLite file or the url database
     roll: RollSpec | None = None
 
@@ -115,7 +122,7 @@ class DataSpec(_Model):
 class EstimationSpec(_Model):
     """``[estimation]``: history window, kind of price change, covariance estimator, sampling."""
 
-    window: int = Field(500, ge=2)
+    window: int = Field(500, ge=2, le=1_000_000)
     changes: Changes = "relative"
     estimator: Estimator = "ledoit-wolf"
     ewma_lambda: float = Field(0.94, gt=0.0, lt=1.0)
@@ -133,7 +140,7 @@ class Exposure(_Model):
 
     id: str = Field(min_length=1)
     series: str
-    quantity: float
+    quantity: float = Field(ge=-rules.MAX_QUANTITY, le=rules.MAX_QUANTITY)
     unit: str
     proxy: str | None = None
 
@@ -143,26 +150,26 @@ class Instrument(_Model):
 
     id: str = Field(min_length=1)
     series: str
-    contract_size: float = Field(gt=0.0)
+    contract_size: float = Field(gt=0.0, le=rules.MAX_CONTRACT_SIZE)
     unit: str
-    min_position: float | None = None
-    max_position: float | None = None
-    position_limit: float | None = Field(None, ge=0.0)
-    current: int = 0
-    adv: float | None = Field(None, ge=0.0)
+    min_position: float | None = Field(None, ge=-rules.MAX_CONTRACTS, le=rules.MAX_CONTRACTS)
+    max_position: float | None = Field(None, ge=-rules.MAX_CONTRACTS, le=rules.MAX_CONTRACTS)
+    position_limit: float | None = Field(None, ge=0.0, le=rules.MAX_CONTRACTS)
+    current: int = Field(0, ge=-rules.MAX_CONTRACTS, le=rules.MAX_CONTRACTS)
+    adv: float | None = Field(None, ge=0.0, le=rules.MAX_CONTRACTS * 100)
     max_participation: float = Field(0.1, gt=0.0, le=1.0)
-    execution_days: float = Field(1.0, gt=0.0)
-    margin: float = Field(0.0, ge=0.0)
-    cost_per_contract: float = Field(0.0, ge=0.0)
+    execution_days: float = Field(1.0, gt=0.0, le=rules.MAX_DAYS)
+    margin: float = Field(0.0, ge=0.0, le=rules.MAX_PER_CONTRACT)
+    cost_per_contract: float = Field(0.0, ge=0.0, le=rules.MAX_PER_CONTRACT)
     amount_currency: str | None = Field(None, pattern=r"^[A-Z]{3}$")  # of margin and costs
     contract_month: str | None = Field(None, pattern=r"^\d{4}-(0[1-9]|1[0-2])$")
     # trading-cost model (optimizer.problem.costs): quoted bid-ask spread in the series' price unit,
     # or in ticks with the currency value of one tick per contract; square-root impact coefficient
-    spread: float | None = Field(None, ge=0.0)
-    spread_ticks: float | None = Field(None, ge=0.0)
-    tick_value: float | None = Field(None, ge=0.0)
-    impact_coefficient: float | None = Field(None, ge=0.0)
-    min_trade: int | None = Field(None, ge=1)
+    spread: float | None = Field(None, ge=0.0, le=rules.MAX_PER_CONTRACT)
+    spread_ticks: float | None = Field(None, ge=0.0, le=rules.MAX_CONTRACTS)
+    tick_value: float | None = Field(None, ge=0.0, le=rules.MAX_PER_CONTRACT)
+    impact_coefficient: float | None = Field(None, ge=0.0, le=1e3)
+    min_trade: int | None = Field(None, ge=1, le=rules.MAX_CONTRACTS)
     # passed through to the trade list for the execution desk (free text / a date)
     symbol: str | None = None
     exchange: str | None = None
@@ -182,7 +189,7 @@ class GroupLimit(_Model):
 
     id: str = Field(min_length=1)
     instruments: list[str] = Field(min_length=1)
-    limit: float = Field(gt=0.0)
+    limit: float = Field(gt=0.0, le=rules.MAX_CONTRACTS * 100)
 
 
 class Constraints(_Model):
@@ -193,7 +200,7 @@ class Constraints(_Model):
     exposure points to are not capped (they serve as cross hedges only).
     """
 
-    margin_budget: float | None = Field(None, gt=0.0)
+    margin_budget: float | None = Field(None, gt=0.0, le=rules.MAX_MONEY)
     hedge_only: bool = False
     no_over_hedge: bool = False
 
@@ -262,6 +269,11 @@ class Book(_Model):
         """The contract expiries file of ``[data.roll]``, resolved; None without a roll table."""
         return None if self.data.roll is None else self.folder / self.data.roll.expiries
 
+    def input_files(self) -> list[Path]:
+        """The files this book reads (book, prices, expiries): never an output path."""
+        files = [self.path, self.prices_path]
+        return files + ([self.expiries_path] if self.expiries_path is not None else [])
+
     def series_ids(self) -> list[str]:
         """Series used by exposures and instruments, in order of first use."""
         seen: dict[str, None] = {}
@@ -291,13 +303,14 @@ class Book(_Model):
         """
         if not isinstance(data, dict):
             raise InputError("the book must be a table of keys", file=source)
-        try:
-            book = cls.model_validate(data)
-        except ValidationError as err:
-            raise from_validation_error(
-                err, data, source=source, root=cls, id_tables=_ID_TABLES, words=_PATTERN_WORDS
-            ) from None
-        _check(book, source)
+        with input_boundary(source, "book file"):
+            try:
+                book = cls.model_validate(data)
+            except ValidationError as err:
+                raise from_validation_error(
+                    err, data, source=source, root=cls, id_tables=_ID_TABLES,
+                    words=_PATTERN_WORDS) from None
+            _check(book, source)
         src = Path(source)
         book._path = src if src.is_absolute() else Path(folder) / src.name
         book._source = source
@@ -373,6 +386,9 @@ def _check(book: Book, source: str) -> None:
     _check_source(book, source)
     units: dict[str, str] = {}
     for name, spec in book.series.items():
+        if rules.CONTROL_CHARS.search(name):
+            raise InputError("series name contains a control character; use plain text",
+                             file=source, key="series")
         parse_price_unit(spec.unit, key=f"series.{name}.unit", file=source)
         units[name] = spec.unit
     if not book.exposures:

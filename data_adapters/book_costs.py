@@ -34,9 +34,9 @@ class CostSpec(BaseModel):
 
     model_config = ConfigDict(extra="forbid", frozen=True, strict=True, allow_inf_nan=False)
 
-    price_of_risk: float | None = Field(None, gt=0.0)
-    budget: float | None = Field(None, gt=0.0)
-    no_trade_ratio: float | None = Field(None, gt=0.0)
+    price_of_risk: float | None = Field(None, gt=0.0, le=1e15)
+    budget: float | None = Field(None, gt=0.0, le=1e15)
+    no_trade_ratio: float | None = Field(None, gt=0.0, le=1e15)
     min_trade: int | None = Field(None, ge=1)
     frontier_points: int = Field(9, ge=2, le=60)
 

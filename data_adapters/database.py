@@ -19,6 +19,7 @@ import os
 import sqlite3
 from datetime import date
 from pathlib import Path
+from urllib.parse import quote
 
 import pandas as pd
 
@@ -62,11 +63,7 @@ def open_engine(url_text: str, folder: Path | str = ".", *, key: str = "data.url
             raise InputError("a SQLite URL needs a file: sqlite:///prices.db", file=file, key=key)
         path = Path(url.database)
         path = path if path.is_absolute() else Path(folder) / path
-        if not path.is_file():
-            raise InputError(f"database file {path} not found", file=file, key=key)
-        uri = f"file:{path.resolve()}?mode=ro"  # read only: a price source is never written
-        return sa.create_engine("sqlite://", creator=lambda: sqlite3.connect(uri, uri=True)), \
-            str(path)
+        return _sqlite_engine(path, file=file, key=key), str(path)
     try:
         engine = sa.create_engine(
             url, connect_args={"options": "-c default_transaction_read_only=on",
@@ -194,11 +191,22 @@ def fetch_frame(book, series: list[str]) -> tuple[pd.DataFrame, str]:
     return frame, where
 
 
+def _sqlite_engine(path: Path, *, file: str | None, key: str):
+    """A read-only engine on a SQLite file (``mode=ro``; the path %-encoded in the URI)."""
+    import sqlalchemy as sa
+
+    if not path.is_file():
+        raise InputError(f"database file {path} not found", file=file, key=key)
+    # read only: a price source is never written; '%', '?' or '#' in a folder name stay literal
+    uri = f"file:{quote(str(path.resolve()))}?mode=ro"
+    return sa.create_engine("sqlite://", creator=lambda: sqlite3.connect(uri, uri=True))
+
+
 def read_sqlite_file(path: Path, table: str, source: str) -> pd.DataFrame:
     """All rows of ``table`` in a SQLite file, as text (parsed like a CSV afterwards)."""
     import sqlalchemy as sa
 
-    engine, _ = open_engine(f"sqlite:///{Path(path).resolve()}", key="data.prices", file=source)
+    engine = _sqlite_engine(Path(path), file=source, key="data.prices")
     try:
         with engine.connect() as conn:
             tbl = _table(conn, table, None, "the database", source)

@@ -9,6 +9,7 @@ such error naming the key.
 
 from __future__ import annotations
 
+import re
 import types
 import typing
 from collections.abc import Iterable, Mapping
@@ -17,7 +18,42 @@ from typing import Any
 
 from pydantic import BaseModel, ValidationError
 
-__all__ = ["InputError", "from_validation_error"]
+__all__ = ["MAX_MESSAGE", "InputError", "from_validation_error", "shorten", "summarise"]
+
+#: Longest message line (characters) an :class:`InputError` prints; longer ones are cut.
+MAX_MESSAGE = 300
+_CONTROL = re.compile(r"[\x00-\x1f\x7f-\x9f]")
+
+
+def _clean(text: str) -> str:
+    """One line of plain text: control characters (newline, escape, …) become spaces."""
+    return _CONTROL.sub(" ", text)
+
+
+def shorten(value: Any, limit: int = 60) -> str:
+    """``repr(value)`` cut to ``limit`` characters (``…`` marks the cut), one line.
+
+    Examples
+    --------
+    >>> shorten("x" * 100, 12)
+    "'xxxxxxxxxx…"
+    """
+    text = _clean(repr(value))
+    return text if len(text) <= limit else text[: limit - 1] + "…"
+
+
+def summarise(items: Iterable[Any], limit: int = 5, *, quote: bool = True) -> str:
+    """The first ``limit`` items, comma-separated, then ``and N more``.
+
+    Examples
+    --------
+    >>> summarise(["a", "b", "c"], 2)
+    "'a', 'b' and 1 more"
+    """
+    items = list(items)
+    shown = ", ".join(shorten(x, 40) if quote else _clean(str(x))[:40] for x in items[:limit])
+    more = len(items) - limit
+    return f"{shown} and {more} more" if more > 0 else shown
 
 
 class InputError(ValueError):
@@ -76,9 +112,13 @@ class InputError(ValueError):
         return ", ".join(parts)
 
     def __str__(self) -> str:
+        """One line of at most :data:`MAX_MESSAGE` characters (long paths and values cut)."""
         where = self.where()
-        text = f"{where}: {self.message}" if where else self.message
-        return " ".join(text.split("\n"))
+        if len(where) > MAX_MESSAGE // 2:  # a very long path: keep its end, the file name
+            where = "…" + where[-(MAX_MESSAGE // 2 - 1):]
+        text = _clean(f"{where}: {self.message}" if where else self.message)
+        text = " ".join(text.split())
+        return text if len(text) <= MAX_MESSAGE else text[: MAX_MESSAGE - 1] + "…"
 
     def __repr__(self) -> str:
         return f"InputError({str(self)!r})"
@@ -203,13 +243,13 @@ def from_validation_error(
         message = f"unknown key; check the spelling{allowed}"
     elif kind == "literal_error":
         expected = first.get("ctx", {}).get("expected", "")
-        message = f"{value!r} is not valid; use one of: {expected}"
+        message = f"{shorten(value)} is not valid; use one of: {expected}"
     elif kind == "model_type":
-        message = f"must be a table of keys, got {value!r}"
+        message = f"must be a table of keys, got {shorten(value)}"
     elif kind == "string_pattern_mismatch" and loc and loc[-1] in words:
-        message = f"{words[loc[-1]]} (got {value!r})"
+        message = f"{words[loc[-1]]} (got {shorten(value)})"
     else:
         text = str(first["msg"]).removeprefix("Value error, ")
         text = text.replace("Input should be", "must be", 1)
-        message = f"{text[:1].lower()}{text[1:]} (got {value!r})"
+        message = f"{text[:1].lower()}{text[1:]} (got {shorten(value)})"
     return InputError(message, file=source, key=key)

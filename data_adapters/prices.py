@@ -29,15 +29,23 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from basiswise.data_adapters.errors import InputError
+from basiswise.data_adapters.boundary import input_boundary
+from basiswise.data_adapters.cells import (
+    MAX_PRICE,
+    MISSING_MARKERS,
+    _parse_dates,
+    _parse_prices,
+    _refuse_duplicate_columns,
+)
+from basiswise.data_adapters.errors import InputError, shorten, summarise
 
-__all__ = ["MISSING_MARKERS", "PricePanel", "check_positive", "load_prices", "panel_from_frame",
+__all__ = ["MAX_PRICE", "MISSING_MARKERS", "PricePanel", "check_positive", "load_prices",
+           "panel_from_frame",
            "read_prices"]
 
-#: Cell texts read as "no price that day" (compared after stripping spaces).
-MISSING_MARKERS = frozenset({"", "NA", "N/A", "NaN", "nan", "null", "NULL", "#N/A", "-"})
 
 _SUFFIXES = (".csv", ".parquet", ".xlsx", ".sqlite", ".db")
+_WHAT = {".xlsx": "price workbook", ".sqlite": "price database", ".db": "price database"}
 _FIRST_DATA_ROW = 2  # header is row 1
 
 
@@ -131,6 +139,7 @@ def _read_table(path: Path, source: str, table: str = "prices") -> pd.DataFrame:
 
             frame = read_sqlite_file(path, table, source)
         elif suffix == ".parquet":
+            _refuse_duplicate_columns(path, suffix, None, source)  # pyarrow fails on them
             frame = pd.read_parquet(path)
             if not isinstance(frame.index, pd.RangeIndex):  # e.g. a saved DatetimeIndex
                 frame = frame.reset_index()
@@ -153,6 +162,7 @@ def _read_table(path: Path, source: str, table: str = "prices") -> pd.DataFrame:
     except (OSError, ValueError) as err:
         raise InputError(f"cannot read the file: {err}", file=source) from None
     frame.columns = [str(c).strip() for c in frame.columns]
+    _refuse_duplicate_columns(path, suffix, frame, source)
     # The index holds the file row of each line (header = row 1), kept through filtering.
     frame.index = pd.RangeIndex(_FIRST_DATA_ROW, _FIRST_DATA_ROW + len(frame))
     blank = frame.apply(lambda c: c.isna() | (c.astype("string").str.strip() == "")).all(axis=1)
@@ -162,62 +172,13 @@ def _read_table(path: Path, source: str, table: str = "prices") -> pd.DataFrame:
 def _require_columns(frame: pd.DataFrame, needed: list[str], what: str, source: str) -> None:
     missing = [c for c in needed if c not in frame.columns]
     if missing:
-        found = ", ".join(map(repr, frame.columns)) or "none"
-        names = ", ".join(map(repr, missing))
+        found = summarise(frame.columns, 8) or "none"
+        names = summarise(missing, 5)
         raise InputError(
             f"missing {what} column(s) {names} (found: {found})",
             file=source,
             column=missing[0],
         )
-
-
-def _parse_dates(col: pd.Series, column: str, source: str) -> pd.DatetimeIndex:
-    if pd.api.types.is_datetime64_any_dtype(col):
-        parsed = pd.to_datetime(col)
-    else:
-        text = col.astype("string").str.strip()
-        parsed = pd.to_datetime(text, errors="coerce", format="ISO8601")
-        is_date_obj = col.map(lambda v: hasattr(v, "year") and not isinstance(v, str))
-        if is_date_obj.any():  # date cells read as objects (Excel, Parquet date32)
-            parsed = parsed.where(~is_date_obj, pd.to_datetime(col.where(is_date_obj)))
-    bad = parsed.isna()
-    if bad.any():
-        i = int(np.flatnonzero(bad.to_numpy())[0])
-        raise InputError(
-            f"cannot read date {col.iloc[i]!r} (use ISO dates like 2024-03-15)",
-            file=source,
-            row=int(col.index[i]),
-            column=column,
-        )
-    index = pd.DatetimeIndex(parsed)
-    if index.tz is not None:
-        index = index.tz_localize(None)
-    return index.normalize()
-
-
-def _parse_prices(col: pd.Series, column: str, source: str) -> np.ndarray:
-    """Float prices with NaN for missing cells; text that is not a finite number is an error."""
-    if pd.api.types.is_bool_dtype(col):
-        bad = np.ones(len(col), dtype=bool)
-        values = np.full(len(col), np.nan)
-    elif pd.api.types.is_numeric_dtype(col):
-        values = col.to_numpy(dtype=float, na_value=np.nan)
-        bad = np.isinf(values)
-    else:
-        text = col.astype("string").str.strip()
-        missing = (text.isna() | text.isin(MISSING_MARKERS)).to_numpy(dtype=bool)
-        numbers = pd.to_numeric(text.where(~missing), errors="coerce")
-        values = numbers.to_numpy(dtype=float, na_value=np.nan)
-        bad = (~missing & np.isnan(values)) | np.isinf(values)
-    if bad.any():
-        i = int(np.flatnonzero(bad)[0])
-        raise InputError(
-            f"price {col.iloc[i]!r} is not a finite number",
-            file=source,
-            row=int(col.index[i]),
-            column=column,
-        )
-    return values
 
 
 def _duplicate_error(rows: np.ndarray, dates: pd.DatetimeIndex, what: str, source: str):
@@ -253,7 +214,7 @@ def _long(frame, series, date_column, series_column, price_column, source):
     absent = [s for s in series if s not in present]
     if absent:
         raise InputError(
-            f"series {', '.join(map(repr, absent))} not found in column {series_column!r}",
+            f"series {summarise(absent)} not found in column {series_column!r}",
             file=source,
             column=series_column,
         )
@@ -318,15 +279,17 @@ def read_prices(
     source = str(path)
     p = Path(path)
     _check_request(format, series, source)
-    frame = _read_table(p, source, table)
-    return panel_from_frame(frame, format=format, series=series, date_column=date_column,
-                            series_column=series_column, price_column=price_column,
-                            max_gap_days=max_gap_days, source=p, rows_numbered=True)
+    with input_boundary(source, _WHAT.get(p.suffix.lower(), "price file")):
+        frame = _read_table(p, source, table)
+        return panel_from_frame(frame, format=format, series=series, date_column=date_column,
+                                series_column=series_column, price_column=price_column,
+                                max_gap_days=max_gap_days, source=p, rows_numbered=True)
 
 
 def _check_request(format: str, series, source: str) -> None:
     if format not in ("wide", "long"):
-        raise InputError(f"unknown format {format!r}; use 'wide' or 'long'", key="data.format")
+        raise InputError(f"unknown format {shorten(format)}; use 'wide' or 'long'",
+                         key="data.format")
     if not list(series):
         raise InputError("no series requested", file=source)
 
@@ -353,6 +316,10 @@ def panel_from_frame(
     source = str(source)
     series = list(series)
     _check_request(format, series, source)
+    dup = pd.Index([str(c).strip() for c in frame.columns]).duplicated()
+    if dup.any():
+        raise InputError("column name used twice; rename one", file=source,
+                         column=str(frame.columns[int(np.flatnonzero(dup)[0])]))
     if isinstance(frame.index, pd.DatetimeIndex) and date_column not in frame.columns:
         frame = frame.rename_axis(date_column).reset_index()
     if not rows_numbered:
@@ -369,7 +336,8 @@ def panel_from_frame(
     complete = prices.notna().all(axis=1).to_numpy()
     dropped = int((~complete).sum())
     if not complete.any():
-        counts = ", ".join(f"{s}: {int(n)}" for s, n in prices.notna().sum().items())
+        counts = summarise([f"{s}: {int(n)}" for s, n in prices.notna().sum().items()], 6,
+                           quote=False)
         raise InputError(
             f"no date has a price for every series (dates with a price: {counts})", file=source
         )

@@ -18,6 +18,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from basiswise.data_adapters.boundary import input_boundary
 from basiswise.data_adapters.choices import ROLL_ADJUSTMENTS
 from basiswise.data_adapters.errors import InputError
 from basiswise.data_adapters.prices import (
@@ -336,7 +337,8 @@ def roll_generic(
 
 def read_expiries(path: str | Path) -> pd.DataFrame:
     """Read an expiries file (``.csv``, ``.parquet``, ``.xlsx``), indexed by file row."""
-    return _read_table(Path(path), str(path))
+    with input_boundary(str(path), "expiries file"):
+        return _read_table(Path(path), str(path))
 
 
 def load_contract_prices(book) -> PricePanel:
@@ -351,9 +353,14 @@ def load_contract_prices(book) -> PricePanel:
     whose changes are the rolled position's P&L, also across dropped dates), so every
     ``adjust`` needs the new contract's price on each roll date.
     """
+    expiries = read_expiries(book.expiries_path)
+    with input_boundary(str(book.prices_path), "price file"):
+        return _load_contract_prices(book, expiries)
+
+
+def _load_contract_prices(book, expiries: pd.DataFrame) -> PricePanel:
     d, roll = book.data, book.data.roll
     prices_file, expiries_file = str(book.prices_path), str(book.expiries_path)
-    expiries = read_expiries(book.expiries_path)
     _require_columns(expiries, _EXPIRY_COLUMNS, "expiries", expiries_file)
     products = set(_text(expiries["product"]).dropna())
     frame = _read_table(book.prices_path, prices_file, d.table)

@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import contextlib
 import json
-import shutil
 import sys
 from importlib import resources
 from pathlib import Path
@@ -13,7 +12,17 @@ import typer
 
 from basiswise.data_adapters.choices import METHODS, ChangeKind, Estimator, Method, Sampling
 
-from .common import EXIT_NO_HEDGE, BookArg, check_ranges, err, fail, guarded, out
+from .common import (
+    EXIT_NO_HEDGE,
+    BookArg,
+    book_inputs,
+    check_outputs,
+    check_ranges,
+    err,
+    fail,
+    guarded,
+    out,
+)
 from .render import text
 
 # help text follows the terminal width (COLUMNS) up to 200 columns; click alone stops at 80
@@ -88,6 +97,8 @@ def _solve_and_show(book, method, trades, as_json, time_limit, schedule=None,
 
     if trades is not None and method == "continuous":
         fail("--trades needs whole contracts: use --method exact or round")
+    check_outputs({"--trades": trades, "--schedule": schedule, "--frontier-png": frontier_png,
+                   "--frontier-csv": frontier_csv}, book_inputs(book))
     busy = (err.status("estimating and solving the hedge…") if err.is_terminal
             else contextlib.nullcontext())
     with busy:
@@ -100,17 +111,21 @@ def _solve_and_show(book, method, trades, as_json, time_limit, schedule=None,
             print_report(report, out)
         fail(f"{book}: no feasible hedge ({report.status}); no trade list written",
              EXIT_NO_HEDGE)
-    if trades is not None:
-        _write_trades(report, trades)
-    written = _write_execution(report, trades, schedule, frontier_png, frontier_csv)
+    # everything is rendered before the trade list is written: a failure while showing the
+    # result leaves no file behind
     if as_json:
-        print(json.dumps(report.to_dict(), indent=2))
+        payload = json.dumps(report.to_dict(), indent=2)
+        if trades is not None:
+            _write_trades(report, trades)
+        _write_execution(report, trades, schedule, frontier_png, frontier_csv)
+        print(payload)
     else:
         print_report(report, out)
         print_execution(report, out)
         if trades is not None:
+            _write_trades(report, trades)
             out.print(text(f"trade list written to {trades}"))
-        for line in written:
+        for line in _write_execution(report, trades, schedule, frontier_png, frontier_csv):
             out.print(text(line))
         if report.schedule and report.schedule["needed"] and \
                 _schedule_path(trades, schedule, report) is None:
@@ -192,6 +207,7 @@ def report(
     from basiswise.optimizer.results.markdown import to_markdown
 
     _door(method, time_limit, window, horizon)
+    check_outputs({"--out": output}, book_inputs(book))
     rep = solve_book(book, method, time_limit=time_limit, frontier=True, estimator=estimator,
                      window=window, horizon_days=horizon, changes=changes, sampling=sampling)
     if not rep.ok:
@@ -214,18 +230,23 @@ def demo(
                                help="Overwrite files in the folder that differ from the demo."),
 ) -> None:
     """Write the invented demo book into a folder, solve it and write its trade list."""
+    from basiswise.data_adapters.boundary import input_boundary
+    from basiswise.data_adapters.output import atomic_write
+
     _door(method, 30.0, None, None)
     src = resources.files("basiswise.scenarios") / "demo"
-    items = [(name, src / name) for name in DEMO_FILES if (src / name).is_file()]
-    clash = [name for name, item in items
-             if (folder / name).exists() and (folder / name).read_bytes() != item.read_bytes()]
+    with input_boundary(folder, "demo folder", key="--out"):
+        items = [(name, (src / name).read_bytes()) for name in DEMO_FILES
+                 if (src / name).is_file()]
+        clash = [name for name, data in items
+                 if (folder / name).exists() and (folder / name).read_bytes() != data]
     if clash and not force:
         fail(f"{folder}: {', '.join(clash)} already there and different from the demo; "
              "nothing written (use --force to overwrite, or another --out folder)")
-    folder.mkdir(parents=True, exist_ok=True)
-    for name, item in items:
-        with resources.as_file(item) as f:
-            shutil.copyfile(f, folder / name)
+    with input_boundary(folder, "demo folder", key="--out"):
+        folder.mkdir(parents=True, exist_ok=True)
+        for name, data in items:
+            atomic_write(folder / name, lambda tmp, data=data: tmp.write_bytes(data))
     out.print(text(f"demo book and invented prices written to {folder}"))
     _solve_and_show(folder / "book.toml", method, folder / "trades.csv", False, 30.0,
                     schedule=folder / "schedule.csv", frontier_png=folder / "frontier.png")
@@ -241,8 +262,10 @@ def main() -> None:
     """Console-script entry point."""
     try:
         app()
-    except KeyboardInterrupt:
-        sys.exit(130)
+    except KeyboardInterrupt as exc:  # outside a command (e.g. while starting up)
+        from basiswise.optimizer.interrupts import exit_code
+
+        sys.exit(exit_code(exc))
 
 
 if __name__ == "__main__":

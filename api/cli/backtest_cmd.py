@@ -10,7 +10,17 @@ from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, T
 
 from basiswise.data_adapters.choices import ESTIMATORS, WHOLE_METHODS, WholeMethod
 
-from .common import BookArg, check_ranges, err, fail, guarded, out, workers_option
+from .common import (
+    BookArg,
+    book_inputs,
+    check_outputs,
+    check_ranges,
+    err,
+    fail,
+    guarded,
+    out,
+    workers_option,
+)
 from .render import Column, Grid, show, text
 from .tables import cautions_panel, money, note, num, pct
 
@@ -125,6 +135,7 @@ def register(app: typer.Typer) -> None:
         check_ranges(every=(every, 1, False), window=(window, 2, False),
                      horizon=(horizon, 1, False), time_limit=(time_limit, 0, True),
                      workers=(workers, 1, False))
+        check_outputs({"--png": png}, book_inputs(book))
         prep = prepare(book, window=window, horizon_days=horizon)
         default = list(STRATEGIES)
         if prep.book.costs.price_of_risk is not None or prep.book.costs.budget is not None:

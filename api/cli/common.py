@@ -1,8 +1,15 @@
-"""Shared pieces of the command line: consoles, exit codes, the input-error guard."""
+"""Shared pieces of the command line: consoles, exit codes, the one guard around every command.
+
+Exit codes: 0 done; 1 an internal error (one line; ``BASISWISE_DEBUG=1`` shows the traceback);
+2 bad input (one line naming file, row, column or key; nothing written); 3 the limits admit no
+hedge; 4 a solver failed; 130 / 143 stopped by SIGINT / SIGTERM (nothing half-written).
+"""
 
 from __future__ import annotations
 
 import functools
+import os
+from pathlib import Path
 
 import typer
 from rich.console import Console
@@ -15,25 +22,74 @@ from basiswise.data_adapters.errors import InputError
 out = Console()
 err = Console(stderr=True, soft_wrap=True)  # an error stays on one line
 
+EXIT_INTERNAL = 1
 EXIT_INPUT = 2
 EXIT_NO_HEDGE = 3
+EXIT_SOLVER = 4
 
 
 def fail(message: str, code: int = EXIT_INPUT) -> None:
     """Print one clear error line on stderr and exit non-zero."""
-    err.print(Text.assemble(("error:", "bold red"), " ", str(message)), highlight=False)
+    err.print(Text.assemble(("error:", "bold red"), " ", " ".join(str(message).split())),
+              highlight=False)
     raise typer.Exit(code)
 
 
+def check_outputs(targets: dict[str, Path | None], inputs: list[Path | str]) -> None:
+    """Refuse unusable output paths before any work starts (``{option: path}``)."""
+    from basiswise.data_adapters.output import check_target
+
+    seen: dict[Path, str] = {}
+    for option, path in targets.items():
+        if path is None:
+            continue
+        check_target(path, inputs=inputs, option=option)
+        key = Path(path).resolve()
+        if key in seen:
+            raise InputError(f"is also the {seen[key]} output; give each output its own file",
+                             file=str(path), key=option)
+        seen[key] = option
+
+
+def book_inputs(book: Path, *more: Path | None) -> list[Path]:
+    """The book file, the files it reads (if it loads) and ``more``: never written over."""
+    files: list[Path] = [Path(book), *(Path(m) for m in more if m is not None)]
+    try:
+        from basiswise.data_adapters.book import load_book
+
+        files += load_book(book).input_files()
+    except InputError:
+        pass  # reported, with its place, when the command loads the book
+    return files
+
+
 def guarded(fn):
-    """Turn input errors into one clear message and a non-zero exit."""
+    """One boundary per command: one line and an exit code for every way a run can end early."""
 
     @functools.wraps(fn)
     def wrapper(*args, **kwargs):
+        from basiswise.optimizer.interrupts import exit_code, handle_signals
+
         try:
-            return fn(*args, **kwargs)
+            with handle_signals():
+                return fn(*args, **kwargs)
         except InputError as exc:
             fail(str(exc))
+        except KeyboardInterrupt as exc:
+            code = exit_code(exc)
+            what = "SIGTERM" if code == 143 else "SIGINT"
+            fail(f"interrupted by {what}: stopped; no output file was written or changed", code)
+        except (typer.Exit, typer.Abort, SystemExit):
+            raise
+        except Exception as exc:
+            if os.environ.get("BASISWISE_DEBUG"):
+                raise
+            from basiswise.optimizer.solvers.dispatch import SolverFailure
+
+            if isinstance(exc, SolverFailure):
+                fail(str(exc), EXIT_SOLVER)
+            fail(f"internal error ({type(exc).__name__}: {str(exc)[:200]}); no output file was "
+                 "written; set BASISWISE_DEBUG=1 for the traceback", EXIT_INTERNAL)
 
     return wrapper
 

@@ -10,21 +10,40 @@ from rich.text import Text
 
 from basiswise.data_adapters.choices import METHODS, Method
 
-from .common import EXIT_NO_HEDGE, BookArg, err, fail, guarded, out, workers_option
+from .common import (
+    EXIT_NO_HEDGE,
+    BookArg,
+    book_inputs,
+    check_outputs,
+    err,
+    fail,
+    guarded,
+    out,
+    workers_option,
+)
 from .render import Column, Grid, show, text
 from .tables import cautions_panel, money, note, num, pct
 
 MAX_ROWS = 60
 PROGRESS_FROM = 20
+#: A sweep of more scenarios than this asks first (or needs ``--yes``): at the time limit per
+#: scenario it could run for hours.
+CONFIRM_ABOVE = 200
 
 
-def _check_target(path: Path | None, option: str) -> None:
-    if path is None:
+def _confirm_size(n: int, time_limit: float, workers: int, yes: bool) -> None:
+    if n <= CONFIRM_ABOVE or yes:
         return
-    if path.is_dir():
-        fail(f"{option} {path}: is a folder, not a file")
-    if not path.parent.is_dir():
-        fail(f"{option} {path}: folder {str(path.parent)!r} does not exist")
+    hours = n * time_limit / max(workers, 1) / 3600
+    what = (f"{n} scenarios (more than {CONFIRM_ABOVE}); at the time limit of {time_limit:g} s "
+            f"each this can take up to {hours:.1f} h")
+    import sys
+
+    if sys.stdin.isatty() and err.is_terminal:
+        if typer.confirm(f"{what}. Run them?", default=False, err=True):
+            return
+        fail("sweep not started (not confirmed)")
+    fail(f"{what}; pass --yes to run them, or split the scenario file")
 
 
 def _short(limit: str) -> str:
@@ -100,7 +119,7 @@ def _stress_labels(res) -> list[str]:
     return sorted(labels)
 
 
-def _run(book, scenarios, method, workers, scheduler, show_progress):
+def _run(book, scenarios, method, workers, scheduler, show_progress, time_limit, yes):
     from basiswise.data_adapters.book import load_book
     from basiswise.optimizer.sweeps.runner import default_workers, run_sweep
     from basiswise.optimizer.sweeps.scenario_file import load_scenarios
@@ -108,8 +127,10 @@ def _run(book, scenarios, method, workers, scheduler, show_progress):
     b = load_book(book)
     ss = load_scenarios(scenarios, b)
     n = default_workers(len(ss)) if workers <= 0 else workers
+    _confirm_size(len(ss), time_limit, n, yes)
     if not show_progress or len(ss) < PROGRESS_FROM:
-        return run_sweep(book, ss, method=method, workers=n, scheduler=scheduler)
+        return run_sweep(book, ss, method=method, workers=n, scheduler=scheduler,
+                         time_limit=time_limit)
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TimeRemainingColumn
 
     with Progress("[progress.description]{task.description}", BarColumn(),
@@ -117,6 +138,7 @@ def _run(book, scenarios, method, workers, scheduler, show_progress):
                   transient=True) as bar:
         task = bar.add_task("solving scenarios", total=len(ss))
         return run_sweep(book, ss, method=method, workers=n, scheduler=scheduler,
+                         time_limit=time_limit,
                          progress=lambda done, total: bar.update(task, completed=done))
 
 
@@ -137,6 +159,10 @@ def register(app: typer.Typer) -> None:
         workers: int = workers_option(0, "Local worker processes (0 = automatic, 1 = serial)."),
         scheduler: str | None = typer.Option(None, "--scheduler",
                                              help="dask.distributed scheduler address."),
+        time_limit: float = typer.Option(30.0, help="Seconds allowed per scenario's "
+                                                    "whole-contract search."),
+        yes: bool = typer.Option(False, "--yes", "-y",
+                                 help=f"Run more than {CONFIRM_ABOVE} scenarios without asking."),
     ) -> None:
         """Solve every scenario of a scenario file and compare residual risk and limits."""
         from basiswise.data_adapters.output import write_csv_atomic
@@ -150,10 +176,12 @@ def register(app: typer.Typer) -> None:
             fail(f"unknown method '{method}'; valid: exact, round, continuous")
         if workers < 0:
             fail(f"--workers must be 0 or more, got {workers}")
-        _check_target(csv, "--csv")
-        _check_target(png, "--png")
+        if not time_limit > 0:
+            fail(f"--time-limit must be above 0, got {time_limit:g}")
+        check_outputs({"--csv": csv, "--png": png}, book_inputs(book, scenarios))
         res = _run(book, scenarios, method, workers, scheduler,
-                   show_progress=not as_json and err.is_terminal)
+                   show_progress=not as_json and err.is_terminal, time_limit=time_limit,
+                   yes=yes)
         lines = frontier_lines(res.results)
         if csv is not None:
             write_csv_atomic(res.to_frame(), csv)

@@ -12,20 +12,20 @@ import multiprocessing as mp
 import time
 from collections.abc import Callable, Sequence
 from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures.process import BrokenProcessPool
 from dataclasses import replace
 from pathlib import Path
 
 from basiswise.data_adapters.book import Book
 
+from ..interrupts import stop_pool, worker_init
 from .engine import BacktestResult, run_backtest
 from .strategies import ESTIMATOR_FREE, STRATEGIES
 
 
 def _job(book, estimator: str, strategies: list[str], kwargs: dict) -> BacktestResult:
-    from threadpoolctl import threadpool_limits
-
-    with threadpool_limits(1):  # one BLAS thread per process: the processes share the cores
-        return run_backtest(book, estimators=[estimator], strategies=strategies, **kwargs)
+    # worker_init (the pool's initializer) set one BLAS thread: the processes share the cores
+    return run_backtest(book, estimators=[estimator], strategies=strategies, **kwargs)
 
 
 def run_backtest_parallel(
@@ -52,13 +52,27 @@ def run_backtest_parallel(
     jobs = [(e, (free + joint) if i == 0 else joint) for i, e in enumerate(estimators)]
     results: dict[str, BacktestResult] = {}
     ctx = mp.get_context("spawn")
-    with ProcessPoolExecutor(max_workers=min(workers, len(jobs)), mp_context=ctx) as ex:
+    ex = ProcessPoolExecutor(max_workers=min(workers, len(jobs)), mp_context=ctx,
+                             initializer=worker_init)
+    notes: list[str] = []
+    try:
         futs = {ex.submit(_job, book, e, s, kwargs): e for e, s in jobs}
         for fut in as_completed(futs):
             results[futs[fut]] = fut.result()
             if progress is not None:
                 progress(len(results), len(jobs))
+    except BrokenProcessPool:  # a worker died: finish its estimators here, and say so
+        notes.append("a worker process died; its estimators were run in the main process")
+    except BaseException:  # interrupted: no worker outlives the backtest
+        stop_pool(ex)
+        raise
+    finally:
+        ex.shutdown(wait=True, cancel_futures=True)
+    for e, s in jobs:
+        if e not in results:
+            results[e] = _job(book, e, s, kwargs)
     first = results[estimators[0]]
     runs = [r for r in first.runs if r.estimator is None]  # same order as the serial run
     runs += [r for e in estimators for r in results[e].runs if r.estimator is not None]
-    return replace(first, runs=runs, seconds=time.perf_counter() - t0)
+    return replace(first, runs=runs, seconds=time.perf_counter() - t0,
+                   notes=list(first.notes) + notes)

@@ -59,6 +59,10 @@ class Structure:
         )
 
 
+class SolverFailure(RuntimeError):
+    """A solver failed (an error, not an answer): no hedge is reported, none is certified."""
+
+
 @dataclass(frozen=True)
 class FormulationResult:
     """Solution of one solve.
@@ -140,8 +144,11 @@ class HedgeFormulation:
         kwargs: dict = {}
         if self.structure.integer:
             solver = solver or "SCIP"
+            # SCIP would catch Ctrl-C itself, stop and return as if done: the interrupt would be
+            # lost and the run go on; left to Python, it stops the run once SCIP returns
+            kwargs["scip_params"] = {"misc/catchctrlc": False}
             if time_limit is not None:
-                kwargs["scip_params"] = {"limits/time": float(time_limit)}
+                kwargs["scip_params"]["limits/time"] = float(time_limit)
             if start is not None:
                 self.x.value = np.asarray(start, dtype=float)
                 kwargs["warm_start"] = True

@@ -160,6 +160,9 @@ def _compress(A: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, flo
     return M, u, max(1.0 - float(u @ u), 0.0)
 
 
+_NO_LIQUIDITY_CAP = 1e12  # contracts: a liquidity cap above this is no cap
+
+
 def _bounds(book: Book, current: np.ndarray, b: np.ndarray, fractional: bool):
     """Intersect position limits, liquidity and hedge-only signs; record which limit binds."""
     n = len(book.instruments)
@@ -177,7 +180,9 @@ def _bounds(book: Book, current: np.ndarray, b: np.ndarray, fractional: bool):
         tighten(j, pmin, pmax, "position limit")
         if ins.adv is not None:
             cap = ins.max_participation * ins.adv * ins.execution_days
-            if not fractional:
+            if not math.isfinite(cap) or cap > _NO_LIQUIDITY_CAP:
+                cap = math.inf  # more than any position limit can use: liquidity does not bind
+            elif not fractional:
                 cap = math.floor(cap + 1e-9)
             tighten(j, current[j] - cap, current[j] + cap, "liquidity")
         if book.constraints.hedge_only and abs(b[j]) > 1e-12:

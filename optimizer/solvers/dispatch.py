@@ -22,10 +22,11 @@ import numpy as np
 
 from basiswise.data_adapters.choices import METHODS as _METHODS
 
-from ..problem.formulation import FormulationResult, solve_relaxed
+from ..problem.formulation import FormulationResult, SolverFailure, solve_relaxed
 from ..problem.qp import HedgeQP
 
 METHODS = _METHODS  # defined once, in data_adapters.choices
+__all__ = ["METHODS", "HedgeSolution", "SolverFailure", "solve_qp"]
 
 
 @dataclass(frozen=True)
@@ -67,6 +68,10 @@ def solve_qp(qp: HedgeQP, method: str = "exact", *, time_limit: float = 30.0,
         raise ValueError(f"unknown method {method!r}; valid: {', '.join(METHODS)}")
     t0 = time.perf_counter()
     relaxed = solve_relaxed(qp, reuse=reuse)
+    if relaxed.status.startswith("solver_error"):
+        raise SolverFailure(f"the continuous solver ({relaxed.solver}) failed: "
+                            f"{relaxed.status.removeprefix('solver_error: ')[:150]}; no hedge "
+                            "is reported")
     if relaxed.x is None:
         return _infeasible(method, relaxed, t0)
     if method == "continuous":

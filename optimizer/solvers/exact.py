@@ -54,7 +54,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..problem.formulation import solve_relaxed, solve_scip
+from ..problem.formulation import SolverFailure, solve_relaxed, solve_scip
 from ..problem.qp import HedgeQP
 from .bounds import lagrangian_terms, polish, prepare_root, quick_relaxation
 from .lattice import lattice_root
@@ -272,6 +272,9 @@ def _scip_fallback(qp, z, lam, mu, lo, hi, inc, deadline, t0, tol, nodes=0, boun
             return _infeasible(qp, z, nodes, t0, "scip-fallback")
         x = naive_round(qp, z)
         x = np.where(np.isfinite(x), x, 0.0)
+        if not qp.is_feasible(x):  # no point within the limits to report: an error, not an answer
+            raise SolverFailure(f"the whole-contract search found no position within the limits "
+                                f"in time and SCIP failed ({res.status}); no hedge is reported")
         obj = qp.value(x)
         return IntegerResult(x=x, objective=obj, bound=float(min(K, obj)) if np.isfinite(K)
                              else 0.0, status="time-limited", gap=float(obj - min(K, obj))

@@ -32,7 +32,8 @@ __all__ = ["native_search", "run_native", "run_active_set"]
 
 _SOURCES = [Path(__file__).resolve().parent / "native" / name
             for name in ("levels.c", "active_set.c")]
-_DIRECT_MAX_N = 12  # smaller searches end within milliseconds: called directly, no helper thread
+_DIRECT_MAX_N = 12  # smaller searches mostly end within milliseconds: called directly
+_DIRECT_SLICE = 0.25  # seconds a direct call from the main thread may run before it moves on
 _lib: ctypes.CDLL | None = None
 last_interrupt: tuple[bool, int] | None = None  # (stopped, nodes) of the last Ctrl-C'd search
 _tried = False
@@ -138,32 +139,55 @@ def _d(a) -> np.ndarray:
     return np.ascontiguousarray(a, dtype=np.float64)
 
 
-def _interruptible(lib, p: _Problem, cancel: ctypes.c_int) -> int:
+def _interruptible(lib, p: _Problem, cancel: ctypes.c_int, keep: dict) -> int:
     """Run the search in a helper thread so that Ctrl-C in the main thread can stop it.
 
-    ctypes releases the GIL during the call, so the main thread keeps waiting in short joins; on
+    ctypes releases the GIL during the call, so the main thread keeps waiting in short waits; on
     KeyboardInterrupt it sets ``cancel`` (the search stops within 1,024 nodes), waits for the
-    search to end and re-raises.
+    search to end and re-raises. Further interrupts while it waits are swallowed: the C loop
+    reads and writes the arrays in ``keep`` until it returns, so they must outlive it (the
+    thread holds them too). The end is signalled by an Event set when the C call has returned,
+    not by ``Thread.join``: on Python 3.11 a ``join`` cut short by KeyboardInterrupt marks a
+    thread that still runs as stopped, and the arrays would be freed under the search.
     """
     global last_interrupt
-    out = []
-    worker = threading.Thread(target=lambda: out.append(lib.bw_enumerate(ctypes.byref(p))),
-                              name="basiswise-search", daemon=True)
-    worker.start()
+    out: list[int] = []
+    done = threading.Event()
+
+    def search() -> None:
+        try:
+            out.append(lib.bw_enumerate(ctypes.byref(p)))
+        finally:
+            done.set()
+
+    worker = threading.Thread(target=search, name="basiswise-search", daemon=True)
+    worker.bw_arrays = (p, cancel, keep)  # alive as long as the thread object is
+    worker.bw_done = done
     try:
+        worker.start()  # inside: an interrupt while it starts must still stop and wait for it
         _wait(worker)
     except KeyboardInterrupt:
         cancel.value = 1
-        worker.join()
+        _wait_through_interrupts(done)
         last_interrupt = (bool(p.stopped), int(p.nodes))
         raise
     return out[0] if out else 1
 
 
 def _wait(worker: threading.Thread) -> None:
-    """Wait for the search thread in short joins, so that KeyboardInterrupt is seen."""
-    while worker.is_alive():
-        worker.join(0.05)
+    """Wait for the search thread's C call to return, in short waits (KeyboardInterrupt seen)."""
+    done = worker.bw_done
+    while not done.is_set():
+        done.wait(0.05)
+
+
+def _wait_through_interrupts(done: threading.Event) -> None:
+    """Wait for the search to end, ignoring any further KeyboardInterrupt meanwhile."""
+    while not done.is_set():
+        try:
+            done.wait(0.05)
+        except KeyboardInterrupt:
+            continue
 
 
 def run_native(prep: dict, best_f: float, time_limit: float):
@@ -216,14 +240,29 @@ def run_native(prep: dict, best_f: float, time_limit: float):
     p.c0, p.mt = iptr("c0", prep["c0"]), iptr("mt", prep["mt"])
     cancel = ctypes.c_int(0)
     p.cancel = ctypes.addressof(cancel)
-    if n <= _DIRECT_MAX_N or threading.current_thread() is not threading.main_thread():
+    keep["best_y"] = best_y
+    main = threading.current_thread() is threading.main_thread()
+    first_nodes, improved = 0, False
+    if n <= _DIRECT_MAX_N or not main:
+        # small books: called directly; from the main thread only for a first slice of time,
+        # so that a rare long search on a small book still reaches a Ctrl-C promptly
+        if main:
+            p.time_limit = min(p.time_limit, _DIRECT_SLICE)
         rc = lib.bw_enumerate(ctypes.byref(p))
+        rest = max(float(time_limit), 0.0) - _DIRECT_SLICE
+        if main and rc == 0 and p.stopped and rest > 0:
+            # search again in the helper thread with the incumbent found (best_f, best_y kept):
+            # a fresh complete search, so its own frontier is the bound if it stops too
+            first_nodes, improved = int(p.nodes), bool(p.improved)
+            p.time_limit = rest
+            rc = _interruptible(lib, p, cancel, keep)
     else:
-        rc = _interruptible(lib, p, cancel)
+        rc = _interruptible(lib, p, cancel, keep)
     if rc != 0:
         raise MemoryError("the compiled search could not allocate its work space")
     frontier = float(p.frontier) if p.stopped else None
-    return float(p.best_f), (best_y if p.improved else None), int(p.nodes), frontier
+    improved = improved or bool(p.improved)
+    return float(p.best_f), (best_y if improved else None), first_nodes + int(p.nodes), frontier
 
 
 def run_active_set(A2: np.ndarray, b2: np.ndarray, C: np.ndarray, d: np.ndarray,

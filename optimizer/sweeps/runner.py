@@ -22,12 +22,10 @@ must see the same files (one machine, or a shared file system for a Dask cluster
 
 from __future__ import annotations
 
-import math
-import multiprocessing as mp
 import os
 import time
 from collections.abc import Callable
-from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures import ProcessPoolExecutor
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any
@@ -45,6 +43,7 @@ from ..results.cautions import CAUTIONS
 from ..results.jsonsafe import finite
 from ..results.report import build_report
 from ..solvers.dispatch import METHODS, solve_qp
+from .local_pool import _chunks, _collect, run_local
 from .scenario_file import Scenario, ScenarioSet, apply_scenario
 from .stress import historical_moves, shock_vector, stress_pnl, worst_window
 
@@ -275,21 +274,11 @@ class SweepRunner:
 _WORKER_RUNNERS: dict[str, SweepRunner] = {}
 
 
-def _init_worker() -> None:
-    try:  # one BLAS thread per worker process: the matrices are small, the cores few
-        from threadpoolctl import threadpool_limits
-
-        threadpool_limits(1)
-    except ImportError:  # pragma: no cover
-        pass
-
-
 def _run_chunk(payload: dict, items: list[tuple[int, str, dict]]) -> list[tuple[int, Any]]:
     """Worker entry: solve ``items`` for the book in ``payload`` (runner cached per process)."""
     key = repr(sorted((k, repr(v)) for k, v in payload.items()))
     runner = _WORKER_RUNNERS.get(key)
     if runner is None:
-        _init_worker()
         runner = SweepRunner(payload["ref"], method=payload["method"], reuse=payload["reuse"],
                              time_limit=payload["time_limit"], source=payload["source"])
         _WORKER_RUNNERS.clear()
@@ -304,16 +293,6 @@ def _payload_ref(book: Any) -> dict:
     return {"path": str(Path(book).resolve())}
 
 
-def _chunks(items: list, parts: int) -> list[list]:
-    size = max(1, math.ceil(len(items) / parts))
-    return [items[i:i + size] for i in range(0, len(items), size)]
-
-
-def _mp_context():
-    """Fresh interpreters (``spawn``): measured faster per scenario here than forked ones."""
-    return mp.get_context("spawn")
-
-
 def _connect(client_cls, address: str):
     """A dask client for ``address``, or one clear error naming the address."""
     try:
@@ -321,17 +300,6 @@ def _connect(client_cls, address: str):
     except (OSError, ValueError, TimeoutError) as exc:
         raise InputError(f"cannot reach a dask scheduler at {address!r}: {exc}",
                          key="--scheduler") from None
-
-
-def _collect(finished, results: list, done: int, total: int, progress) -> int:
-    """Store each finished chunk's results in place; report progress; return the count done."""
-    for fut in finished:
-        for i, r in fut.result():
-            results[i] = r
-            done += 1
-        if progress:
-            progress(done, total)
-    return done
 
 
 def run_sweep(book: Any, scenarios: ScenarioSet | list[Scenario], *, method: str = "exact",
@@ -399,14 +367,16 @@ def run_sweep(book: Any, scenarios: ScenarioSet | list[Scenario], *, method: str
                     client.close()
         else:
             mode = f"{workers} local processes"
-            own = pool is None
-            ex = pool or ProcessPoolExecutor(max_workers=workers, mp_context=_mp_context())
-            try:
-                futs = [ex.submit(_run_chunk, payload, ch) for ch in _chunks(items, 4 * workers)]
-                done = _collect(as_completed(futs), results, done, total, progress)
-            finally:
-                if own:
-                    ex.shutdown(wait=True, cancel_futures=True)
+            done, note = run_local(_run_chunk, items, payload, workers, pool, results, total,
+                                   progress)
+            if note:
+                mode += f" ({note})"
+                for i, sc in enumerate(scs):
+                    if results[i] is None:
+                        results[i] = main.run(sc)
+                        done += 1
+                        if progress:
+                            progress(done, total)
     b = main.book
     return SweepResult(book=b.book.name, currency=b.book.currency,
                        horizon_days=b.book.horizon_days, method=method, mode=mode,

@@ -61,6 +61,7 @@ from pathlib import Path
 from typing import Any
 
 from basiswise.data_adapters.book import Book
+from basiswise.data_adapters.boundary import input_boundary
 from basiswise.data_adapters.toml_file import read_toml
 
 from .scenario_checks import (
@@ -253,7 +254,8 @@ def load_scenarios(path: str | Path, book: Book) -> ScenarioSet:
     """Read, validate and expand a scenario file for ``book``."""
     data = read_toml(path, "scenario file")
     source = str(path)
-    return parse_scenarios(data, book, source)
+    with input_boundary(source, "scenario file"):
+        return parse_scenarios(data, book, source)
 
 
 # --------------------------------------------------------------------------- applying
