@@ -92,6 +92,22 @@ class HedgeReport:
         ]
         return finite(d)
 
+    def positions_frame(self) -> pd.DataFrame:
+        """One row per instrument: every figure of the positions table (contracts, currency).
+
+        Columns are the fields of :class:`~.diagnostics.InstrumentLine` with ``id`` named
+        ``instrument``; counts are whole contracts except with ``method = "continuous"``.
+        """
+        return _frame(self.instruments, {"id": "instrument"})
+
+    def exposures_frame(self) -> pd.DataFrame:
+        """One row per exposure: quantity, value and risk before and after (currency)."""
+        return _frame(self.exposures, {"id": "exposure"})
+
+    def limits_frame(self) -> pd.DataFrame:
+        """One row per limit: kind, whether it binds and its shadow price (currency per unit)."""
+        return _frame(self.limits, {"name": "limit"})
+
     def trade_list(self) -> pd.DataFrame:
         """The execution desk's list: one row per instrument with a non-zero trade."""
         from .desk_fields import add_desk_columns
@@ -120,6 +136,11 @@ class HedgeReport:
             "reference_price", f"trade_notional_{self.currency}",
             f"target_margin_{self.currency}", f"margin_change_{self.currency}",
             "adv_share", "days_to_execute"])
+
+
+def _frame(lines: list, rename: dict[str, str]) -> pd.DataFrame:
+    """Dataclass lines as a DataFrame (an empty list keeps no columns)."""
+    return pd.DataFrame([asdict(x) for x in lines]).rename(columns=rename)
 
 
 def build_report(model: HedgeModel, sol: HedgeSolution, notes: list[str] | None = None
